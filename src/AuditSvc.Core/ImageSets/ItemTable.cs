@@ -1,0 +1,26 @@
+namespace AuditSvc.Core.ImageSets;
+
+/// <summary>An attribute column. Values are categorical; numeric columns are binned at intake.</summary>
+/// <param name="Name">Column name.</param>
+/// <param name="Values">The distinct values (bins for numeric columns), in a stable order.</param>
+/// <param name="Numeric">True when the column was numeric and binned.</param>
+public sealed record AttributeColumn(string Name, IReadOnlyList<string> Values, bool Numeric);
+
+/// <summary>
+/// One usable image. <see cref="AttributeValues"/> holds, per column of the table, the index into that
+/// column's values, or -1 when the cell is missing.
+/// </summary>
+public sealed record ImageItem(int Index, int Row, string Path, string RelativePath, int Label, int[] AttributeValues, string Sha256);
+
+/// <summary>A problem found at intake: the row (1-based data row, header excluded) or file, and why.</summary>
+public sealed record IntakeProblem(int? Row, string File, string Reason);
+
+/// <summary>What intake read and what it skipped.</summary>
+public sealed record IntakeReport(string Source, int RowsRead, int RowsUsed, IReadOnlyList<IntakeProblem> Problems);
+
+/// <summary>The image set after intake.</summary>
+public sealed record ItemTable(
+    IReadOnlyList<string> Labels,
+    IReadOnlyList<AttributeColumn> Attributes,
+    IReadOnlyList<ImageItem> Items,
+    IntakeReport Report);
