@@ -29,6 +29,8 @@ public enum BatchMode
 }
 
 /// <summary>What the model intake learned about a model.</summary>
+/// <param name="OutputName">The class-score output (logits, or probabilities when the graph ends in Softmax).</param>
+/// <param name="Layers">Every candidate layer of the graph, in topological order.</param>
 public sealed record ModelPlan(
     string ModelPath,
     string Sha256,
@@ -37,7 +39,8 @@ public sealed record ModelPlan(
     int ClassCount,
     InputRecipe Recipe,
     IReadOnlyList<LayerInfo> Layers,
-    BatchMode Batch)
+    BatchMode Batch,
+    bool OutputIsProbabilities)
 {
     /// <summary>The layers the audit reads (the defaults unless overridden).</summary>
     public IReadOnlyList<LayerInfo> ReadLayers { get; init; } = [];
