@@ -1,0 +1,178 @@
+using Dapper;
+using Npgsql;
+
+namespace AuditSvc.Data.Audits;
+
+/// <summary>A chunk this worker holds: the token proves ownership until the lease runs out.</summary>
+public sealed record ChunkClaim(Guid AuditId, int ChunkIndex, int StartItem, int ItemCount, int Attempt, Guid Token);
+
+/// <summary>What completing a chunk did: whether the result was taken, and whether this call closed the audit's last chunk.</summary>
+public sealed record ChunkCompletion(bool Accepted, bool LastChunk);
+
+/// <summary>
+/// The work-queue side of audits, used by jobs (which act on ids, not on a caller's team). Every write is
+/// conditional on the state it expects, so a job that runs twice, or late, changes nothing the second time.
+/// </summary>
+public sealed class ChunkStore(NpgsqlDataSource db)
+{
+    /// <summary>queued → running; false when the audit is already past queued (or gone).</summary>
+    public async Task<AuditRow?> StartAsync(Guid auditId, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        await conn.ExecuteAsync(new CommandDefinition(
+            "UPDATE audits SET state = 'running', started_at = now() WHERE id = @auditId AND state = 'queued'",
+            new { auditId }, cancellationToken: ct));
+        return await conn.QuerySingleOrDefaultAsync<AuditRow>(new CommandDefinition(
+            $"SELECT {AuditStore.Columns} FROM audits WHERE id = @auditId", new { auditId }, cancellationToken: ct));
+    }
+
+    /// <summary>Indices of chunks not yet done, for fan-out.</summary>
+    public async Task<IReadOnlyList<int>> OpenChunksAsync(Guid auditId, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        return (await conn.QueryAsync<int>(new CommandDefinition(
+            "SELECT chunk_index FROM audit_chunks WHERE audit_id = @auditId AND state <> 'done' ORDER BY chunk_index",
+            new { auditId }, cancellationToken: ct))).ToList();
+    }
+
+    /// <summary>
+    /// Takes the chunk when it is pending, or running under a lease that has run out (its worker died).
+    /// Null when the audit is not running, the chunk is done, or a live worker holds it.
+    /// </summary>
+    public async Task<ChunkClaim?> ClaimAsync(Guid auditId, int chunkIndex, TimeSpan lease, CancellationToken ct)
+    {
+        var token = Guid.NewGuid();
+        await using var conn = await db.OpenConnectionAsync(ct);
+        return await conn.QuerySingleOrDefaultAsync<ChunkClaim>(new CommandDefinition(
+            """
+            UPDATE audit_chunks c
+            SET state = 'running', attempt = c.attempt + 1, lease_token = @token,
+                lease_until = now() + @lease, updated_at = now()
+            FROM audits a
+            WHERE c.audit_id = @auditId AND c.chunk_index = @chunkIndex AND a.id = c.audit_id AND a.state = 'running'
+              AND (c.state = 'pending' OR (c.state = 'running' AND c.lease_until < now()))
+            RETURNING c.audit_id AS AuditId, c.chunk_index AS ChunkIndex, c.start_item AS StartItem,
+                      c.item_count AS ItemCount, c.attempt AS Attempt, c.lease_token AS Token
+            """, new { auditId, chunkIndex, token, lease }, cancellationToken: ct));
+    }
+
+    /// <summary>Slides the lease on; false when the chunk is no longer this claim's (it expired and was taken, or the audit ended).</summary>
+    public async Task<bool> ExtendAsync(ChunkClaim claim, TimeSpan lease, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        return await conn.ExecuteAsync(new CommandDefinition(
+            """
+            UPDATE audit_chunks SET lease_until = now() + @lease, updated_at = now()
+            WHERE audit_id = @AuditId AND chunk_index = @ChunkIndex AND state = 'running' AND lease_token = @Token
+            """, new { claim.AuditId, claim.ChunkIndex, claim.Token, lease }, cancellationToken: ct)) == 1;
+    }
+
+    /// <summary>
+    /// Stores the result and counts the chunk, in one transaction and only while the claim still holds, so
+    /// each item is counted once. The call that brings chunks_done to chunks_total moves the audit to
+    /// merging and is told so: that caller (and only it) enqueues the merge.
+    /// </summary>
+    public async Task<ChunkCompletion> CompleteAsync(ChunkClaim claim, byte[] result, TimeSpan mergeGrace, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        await using var tx = await conn.BeginTransactionAsync(ct);
+        var taken = await conn.ExecuteAsync(new CommandDefinition(
+            """
+            UPDATE audit_chunks SET state = 'done', result = @result, lease_token = NULL, lease_until = NULL, updated_at = now()
+            WHERE audit_id = @AuditId AND chunk_index = @ChunkIndex AND state = 'running' AND lease_token = @Token
+            """, new { claim.AuditId, claim.ChunkIndex, claim.Token, result }, tx, cancellationToken: ct));
+        if (taken == 0) return new ChunkCompletion(false, false);
+        var last = await conn.QuerySingleOrDefaultAsync<bool?>(new CommandDefinition(
+            """
+            UPDATE audits SET chunks_done = chunks_done + 1, items_done = items_done + @ItemCount,
+                state = CASE WHEN chunks_done + 1 = chunks_total THEN 'merging' ELSE state END,
+                merge_lease_until = CASE WHEN chunks_done + 1 = chunks_total THEN now() + @mergeGrace ELSE NULL END
+            WHERE id = @AuditId AND state = 'running'
+            RETURNING state = 'merging'
+            """, new { claim.AuditId, claim.ItemCount, mergeGrace }, tx, cancellationToken: ct));
+        if (last is null) return new ChunkCompletion(false, false); // cancelled meanwhile: roll back, count nothing
+        await tx.CommitAsync(ct);
+        return new ChunkCompletion(true, last.Value);
+    }
+
+    /// <summary>Takes the merge of an audit in merging whose merge lease is free or expired.</summary>
+    public async Task<bool> ClaimMergeAsync(Guid auditId, TimeSpan lease, bool force, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        return await conn.ExecuteAsync(new CommandDefinition(
+            """
+            UPDATE audits SET merge_lease_until = now() + @lease
+            WHERE id = @auditId AND state = 'merging'
+              AND (@force OR merge_lease_until IS NULL OR merge_lease_until < now())
+            """, new { auditId, lease, force }, cancellationToken: ct)) == 1;
+    }
+
+    /// <summary>Every chunk result in chunk order; call only when all chunks are done.</summary>
+    public async Task<IReadOnlyList<byte[]>> ResultsAsync(Guid auditId, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        return (await conn.QueryAsync<byte[]>(new CommandDefinition(
+            "SELECT result FROM audit_chunks WHERE audit_id = @auditId AND state = 'done' ORDER BY chunk_index",
+            new { auditId }, cancellationToken: ct))).ToList();
+    }
+
+    /// <summary>merging → done with audit.json, verdict, findings and scores; false when already finished or cancelled.</summary>
+    public async Task<bool> FinishAsync(Guid auditId, AuditOutcome outcome, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        await using var tx = await conn.BeginTransactionAsync(ct);
+        var done = await conn.ExecuteAsync(new CommandDefinition(
+            """
+            UPDATE audits SET state = 'done', result = @ResultJson::jsonb, verdict = @Verdict, finished_at = now(),
+                merge_lease_until = NULL
+            WHERE id = @auditId AND state = 'merging'
+            """, new { auditId, outcome.ResultJson, outcome.Verdict }, tx, cancellationToken: ct));
+        if (done == 0) return false;
+        await conn.ExecuteAsync(new CommandDefinition(
+            """
+            INSERT INTO findings (audit_id, ordinal, layer, unit, attribute, value, odds_ratio, q_value, region, detail)
+            VALUES (@auditId, @Ordinal, @Layer, @Unit, @Attribute, @Value, @OddsRatio, @QValue, @Region, @DetailJson::jsonb)
+            ON CONFLICT DO NOTHING
+            """, outcome.Findings.Select(f => new { auditId, f.Ordinal, f.Layer, f.Unit, f.Attribute, f.Value, f.OddsRatio, f.QValue, f.Region, f.DetailJson }),
+            tx, cancellationToken: ct));
+        await conn.ExecuteAsync(new CommandDefinition(
+            """
+            INSERT INTO attribute_scores (audit_id, attribute, leakage, verdict, measures)
+            VALUES (@auditId, @Attribute, @Leakage, @Verdict, @MeasuresJson::jsonb)
+            ON CONFLICT DO NOTHING
+            """, outcome.Scores.Select(s => new { auditId, s.Attribute, s.Leakage, s.Verdict, s.MeasuresJson }),
+            tx, cancellationToken: ct));
+        await tx.CommitAsync(ct);
+        return true;
+    }
+
+    /// <summary>Marks an unfinished audit failed with a reason.</summary>
+    public async Task FailAsync(Guid auditId, string error, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        await conn.ExecuteAsync(new CommandDefinition(
+            """
+            UPDATE audits SET state = 'failed', error = @error, finished_at = now()
+            WHERE id = @auditId AND state IN ('queued', 'running', 'merging')
+            """, new { auditId, error }, cancellationToken: ct));
+    }
+
+    /// <summary>Work a dead worker left behind: chunks whose lease ran out, merges never taken, audits never started.</summary>
+    public async Task<StaleWork> StaleAsync(TimeSpan startGrace, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        var chunks = await conn.QueryAsync<(Guid, int)>(new CommandDefinition(
+            """
+            SELECT c.audit_id, c.chunk_index FROM audit_chunks c JOIN audits a ON a.id = c.audit_id
+            WHERE a.state = 'running' AND c.state = 'running' AND c.lease_until < now()
+            """, cancellationToken: ct));
+        var merges = await conn.QueryAsync<Guid>(new CommandDefinition(
+            "SELECT id FROM audits WHERE state = 'merging' AND merge_lease_until < now()", cancellationToken: ct));
+        var starts = await conn.QueryAsync<Guid>(new CommandDefinition(
+            "SELECT id FROM audits WHERE state = 'queued' AND created_at < now() - @startGrace",
+            new { startGrace }, cancellationToken: ct));
+        return new StaleWork(chunks.ToList(), merges.ToList(), starts.ToList());
+    }
+}
+
+public sealed record StaleWork(IReadOnlyList<(Guid AuditId, int ChunkIndex)> Chunks, IReadOnlyList<Guid> Merges, IReadOnlyList<Guid> Starts);

@@ -1,0 +1,45 @@
+using Dapper;
+using Npgsql;
+
+namespace AuditSvc.Data.Models;
+
+/// <summary>A stored model. Recipe and layer catalogue are JSON as the engine wrote them.</summary>
+public sealed record ModelRow(Guid Id, Guid TeamId, string Name, string ContentHash, string RelativePath,
+    string Recipe, string Layers, DateTime CreatedAt);
+
+public sealed class ModelStore(NpgsqlDataSource db)
+{
+    private const string Columns = """
+        id AS Id, team_id AS TeamId, name AS Name, content_hash AS ContentHash, relative_path AS RelativePath,
+        recipe::text AS Recipe, layers::text AS Layers, created_at AS CreatedAt
+        """;
+
+    public async Task<ModelRow> AddAsync(Guid teamId, string name, string contentHash, string relativePath,
+        string recipeJson, string layersJson, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        return await conn.QuerySingleAsync<ModelRow>(new CommandDefinition(
+            $"""
+            INSERT INTO models (id, team_id, name, content_hash, relative_path, recipe, layers)
+            VALUES (@id, @teamId, @name, @contentHash, @relativePath, @recipeJson::jsonb, @layersJson::jsonb)
+            RETURNING {Columns}
+            """, new { id = Guid.CreateVersion7(), teamId, name, contentHash, relativePath, recipeJson, layersJson },
+            cancellationToken: ct));
+    }
+
+    public async Task<ModelRow?> GetAsync(Guid teamId, Guid id, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        return await conn.QuerySingleOrDefaultAsync<ModelRow>(new CommandDefinition(
+            $"SELECT {Columns} FROM models WHERE id = @id AND team_id = @teamId",
+            new { id, teamId }, cancellationToken: ct));
+    }
+
+    public async Task<IReadOnlyList<ModelRow>> ListAsync(Guid teamId, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        return (await conn.QueryAsync<ModelRow>(new CommandDefinition(
+            $"SELECT {Columns} FROM models WHERE team_id = @teamId ORDER BY created_at DESC",
+            new { teamId }, cancellationToken: ct))).ToList();
+    }
+}
