@@ -66,7 +66,7 @@ CREATE TABLE audits (
     chunks_total       integer NOT NULL,
     chunks_done        integer NOT NULL DEFAULT 0,
     policy             jsonb NOT NULL,
-    result             jsonb,
+    result             json,  -- json, not jsonb: kept byte for byte as the engine wrote audit.json
     verdict            text CHECK (verdict IN ('pass','block')),
     error              text,
     merge_lease_until  timestamptz,

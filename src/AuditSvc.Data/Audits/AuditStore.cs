@@ -68,6 +68,19 @@ public sealed class AuditStore(NpgsqlDataSource db)
             new { id, teamId }, cancellationToken: ct));
     }
 
+    /// <summary>Per-attribute leakage scores of a finished audit of the team (empty otherwise).</summary>
+    public async Task<IReadOnlyList<AttributeScoreRow>> ScoresAsync(Guid teamId, Guid id, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        return (await conn.QueryAsync<AttributeScoreRow>(new CommandDefinition(
+            """
+            SELECT s.attribute AS Attribute, s.leakage AS Leakage, s.verdict AS Verdict, s.measures::text AS MeasuresJson
+            FROM attribute_scores s JOIN audits a ON a.id = s.audit_id
+            WHERE s.audit_id = @id AND a.team_id = @teamId
+            ORDER BY s.leakage DESC, s.attribute
+            """, new { id, teamId }, cancellationToken: ct))).ToList();
+    }
+
     public async Task<IReadOnlyList<AuditRow>> ListAsync(Guid teamId, AuditFilter filter, CancellationToken ct)
     {
         await using var conn = await db.OpenConnectionAsync(ct);

@@ -67,6 +67,17 @@ public sealed class ChunkStore(NpgsqlDataSource db)
             """, new { claim.AuditId, claim.ChunkIndex, claim.Token, lease }, cancellationToken: ct)) == 1;
     }
 
+    /// <summary>Gives the chunk back after a failed attempt, so a retry can take it at once instead of after the lease.</summary>
+    public async Task ReleaseAsync(ChunkClaim claim, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        await conn.ExecuteAsync(new CommandDefinition(
+            """
+            UPDATE audit_chunks SET state = 'pending', lease_token = NULL, lease_until = NULL, updated_at = now()
+            WHERE audit_id = @AuditId AND chunk_index = @ChunkIndex AND state = 'running' AND lease_token = @Token
+            """, new { claim.AuditId, claim.ChunkIndex, claim.Token }, cancellationToken: ct));
+    }
+
     /// <summary>
     /// Stores the result and counts the chunk, in one transaction and only while the claim still holds, so
     /// each item is counted once. The call that brings chunks_done to chunks_total moves the audit to
@@ -123,7 +134,7 @@ public sealed class ChunkStore(NpgsqlDataSource db)
         await using var tx = await conn.BeginTransactionAsync(ct);
         var done = await conn.ExecuteAsync(new CommandDefinition(
             """
-            UPDATE audits SET state = 'done', result = @ResultJson::jsonb, verdict = @Verdict, finished_at = now(),
+            UPDATE audits SET state = 'done', result = @ResultJson::json, verdict = @Verdict, finished_at = now(),
                 merge_lease_until = NULL
             WHERE id = @auditId AND state = 'merging'
             """, new { auditId, outcome.ResultJson, outcome.Verdict }, tx, cancellationToken: ct));

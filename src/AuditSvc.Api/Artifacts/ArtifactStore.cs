@@ -1,0 +1,111 @@
+using System.IO.Compression;
+using System.Security.Cryptography;
+using AuditSvc.Api.Hosting;
+using AuditSvc.Core;
+using Microsoft.Extensions.Options;
+
+namespace AuditSvc.Api.Artifacts;
+
+/// <summary>A file stored under the artifact root by the SHA-256 of its content.</summary>
+public sealed record StoredArtifact(string ContentHash, string RelativePath, string FullPath, long Length);
+
+/// <summary>
+/// Content-addressed files under the artifact root: an upload is streamed to a scratch file while it is
+/// hashed, then moved to blobs/sha256/ab/abcd….ext; a second upload of the same bytes finds it there and is
+/// dropped. Nothing is held in memory whole.
+/// </summary>
+public sealed class ArtifactStore(IOptions<ServiceOptions> options)
+{
+    public string Root { get; } = Path.GetFullPath(options.Value.DataRoot);
+
+    public async Task<StoredArtifact> SaveAsync(Stream content, string extension, long maxBytes, string field, CancellationToken ct)
+    {
+        var scratch = Directory.CreateDirectory(Path.Combine(Root, "scratch")).FullName;
+        var temp = Path.Combine(scratch, Guid.NewGuid().ToString("N"));
+        string hash;
+        long length = 0;
+        try
+        {
+            using var sha = IncrementalHash.CreateHash(HashAlgorithmName.SHA256);
+            await using (var file = new FileStream(temp, FileMode.CreateNew, FileAccess.Write, FileShare.None, 1 << 16, useAsync: true))
+            {
+                var buffer = new byte[1 << 16];
+                int n;
+                while ((n = await content.ReadAsync(buffer, ct)) > 0)
+                {
+                    length += n;
+                    if (length > maxBytes)
+                        throw new AuditInputException(field, $"upload is larger than the limit of {maxBytes} bytes (AUDITSVC_MAX_UPLOAD_BYTES)");
+                    sha.AppendData(buffer, 0, n);
+                    await file.WriteAsync(buffer.AsMemory(0, n), ct);
+                }
+            }
+            if (length == 0) throw new AuditInputException(field, "upload is empty");
+            hash = Convert.ToHexStringLower(sha.GetHashAndReset());
+            var relative = Path.Combine("blobs", "sha256", hash[..2], hash + extension);
+            var full = Path.Combine(Root, relative);
+            Directory.CreateDirectory(Path.GetDirectoryName(full)!);
+            // Same bytes already stored: keep the first copy (a concurrent identical upload may win the move too).
+            if (!File.Exists(full)) File.Move(temp, full, overwrite: true);
+            return new StoredArtifact("sha256:" + hash, relative, full, length);
+        }
+        finally
+        {
+            if (File.Exists(temp)) File.Delete(temp);
+        }
+    }
+
+    /// <summary>
+    /// Unpacks a stored zip once into sets/&lt;hash&gt;/ (via a scratch folder and a rename, so a half-written
+    /// folder is never seen); refuses entries that would land outside it.
+    /// </summary>
+    public string Unpack(StoredArtifact zip, string field)
+    {
+        var relative = Path.Combine("sets", zip.ContentHash.Replace("sha256:", "", StringComparison.Ordinal));
+        var target = Path.Combine(Root, relative);
+        if (Directory.Exists(target)) return relative;
+        var temp = Path.Combine(Root, "scratch", Guid.NewGuid().ToString("N"));
+        try
+        {
+            using (var archive = OpenZip(zip.FullPath, field))
+            {
+                foreach (var entry in archive.Entries)
+                {
+                    var dest = Path.GetFullPath(Path.Combine(temp, entry.FullName));
+                    if (!dest.StartsWith(temp + Path.DirectorySeparatorChar, StringComparison.Ordinal))
+                        throw new AuditInputException($"{field}: {entry.FullName}", "zip entry points outside the archive");
+                    if (entry.FullName.EndsWith('/')) { Directory.CreateDirectory(dest); continue; }
+                    Directory.CreateDirectory(Path.GetDirectoryName(dest)!);
+                    entry.ExtractToFile(dest);
+                }
+            }
+            Directory.CreateDirectory(Path.GetDirectoryName(target)!);
+            try { Directory.Move(temp, target); }
+            catch (IOException) when (Directory.Exists(target)) { /* an identical upload unpacked first */ }
+            return relative;
+        }
+        finally
+        {
+            if (Directory.Exists(temp)) Directory.Delete(temp, recursive: true);
+        }
+    }
+
+    /// <summary>Resolves a folder given relative to the root; refuses anything outside the root.</summary>
+    public string ResolveFolder(string relative, string field)
+    {
+        if (string.IsNullOrWhiteSpace(relative)) throw new AuditInputException(field, "is required");
+        var full = Path.GetFullPath(Path.Combine(Root, relative));
+        if (!full.StartsWith(Root + Path.DirectorySeparatorChar, StringComparison.Ordinal))
+            throw new AuditInputException(field, $"'{relative}' is not inside the artifact root");
+        if (!Directory.Exists(full)) throw new AuditInputException(field, $"folder '{relative}' does not exist under the artifact root");
+        return Path.GetRelativePath(Root, full);
+    }
+
+    public string FullPath(string relative) => Path.Combine(Root, relative);
+
+    private static ZipArchive OpenZip(string path, string field)
+    {
+        try { return ZipFile.OpenRead(path); }
+        catch (InvalidDataException e) { throw new AuditInputException(field, "is not a readable zip archive", e); }
+    }
+}

@@ -1,0 +1,34 @@
+using System.Text.Json;
+using AuditSvc.Api.Hosting;
+using AuditSvc.Data.Audits;
+
+namespace AuditSvc.Api.Audits;
+
+/// <summary>Submit an audit of a model on an image set; policy and chunk size are optional.</summary>
+public sealed record SubmitAudit(Guid? ModelId, Guid? ImageSetId, JsonElement? Policy, int? ChunkSize);
+
+/// <summary>Images done of total, the rate since the audit started, and the time left at that rate.</summary>
+public sealed record AuditProgress(int ItemsDone, int ItemsTotal, int ChunksDone, int ChunksTotal, double? ItemsPerSecond, double? EtaSeconds);
+
+public sealed record AuditResponse(Guid Id, Guid ModelId, Guid ImageSetId, string State, string? Verdict, string? Error,
+    AuditProgress Progress, JsonElement Policy, DateTime CreatedAt, DateTime? StartedAt, DateTime? FinishedAt)
+{
+    public static AuditResponse From(AuditRow a, DateTime now)
+    {
+        double? rate = null, eta = null;
+        if (a.StartedAt is { } started && a.ItemsDone > 0)
+        {
+            var seconds = ((a.FinishedAt ?? now) - started).TotalSeconds;
+            if (seconds > 0) rate = a.ItemsDone / seconds;
+            if (rate > 0 && a.State is "running") eta = (a.ItemsTotal - a.ItemsDone) / rate;
+        }
+        return new AuditResponse(a.Id, a.ModelId, a.ImageSetId, a.State, a.Verdict, a.Error,
+            new AuditProgress(a.ItemsDone, a.ItemsTotal, a.ChunksDone, a.ChunksTotal, rate, eta),
+            JsonText.Element(a.Policy), a.CreatedAt, a.StartedAt, a.FinishedAt);
+    }
+}
+
+public sealed record AttributeVerdict(string Attribute, double Leakage, string Verdict);
+
+/// <summary>The release question: pass or block, with the attributes behind it.</summary>
+public sealed record VerdictResponse(Guid AuditId, string Verdict, IReadOnlyList<AttributeVerdict> Attributes);

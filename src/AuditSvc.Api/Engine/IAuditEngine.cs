@@ -1,0 +1,28 @@
+using AuditSvc.Core.ImageSets;
+using AuditSvc.Data.Audits;
+
+namespace AuditSvc.Api.Engine;
+
+/// <summary>What model intake tells the service: the recipe that will run and the layer catalogue, as JSON.</summary>
+public sealed record ModelIntake(string RecipeJson, string LayersJson);
+
+/// <summary>Everything one audit's jobs need, loaded from the database and the artifact root.</summary>
+public sealed record AuditInputs(Guid AuditId, string ModelPath, string RecipeJson, ItemTable Items, string PolicyJson, int OnnxThreads);
+
+/// <summary>
+/// The seam between the service and the engine: jobs call it with ids resolved to files and tables.
+/// The real implementation forwards to AuditSvc.Compute; tests use a trivial one to check the queue mechanics.
+/// </summary>
+public interface IAuditEngine
+{
+    Task<ModelIntake> InspectModelAsync(string modelPath, string? recipeJson, CancellationToken ct);
+
+    /// <summary>Reads an unpacked image set folder (manifest CSV or class-per-folder).</summary>
+    Task<ItemTable> IntakeImageSetAsync(string folder, CancellationToken ct);
+
+    /// <summary>Runs items [start, start+count) and returns the chunk result as bytes to keep in Postgres.</summary>
+    Task<byte[]> RunChunkAsync(AuditInputs inputs, int start, int count, CancellationToken ct);
+
+    /// <summary>Merges the chunk results (in chunk order) and runs the analysis: audit.json, verdict, findings, scores.</summary>
+    Task<AuditOutcome> FinishAsync(AuditInputs inputs, IReadOnlyList<byte[]> chunks, CancellationToken ct);
+}

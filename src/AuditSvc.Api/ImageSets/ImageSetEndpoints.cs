@@ -1,0 +1,90 @@
+using System.Security.Cryptography;
+using System.Text;
+using System.Text.Json;
+using AuditSvc.Api.Artifacts;
+using AuditSvc.Api.Auth;
+using AuditSvc.Api.Engine;
+using AuditSvc.Api.Hosting;
+using AuditSvc.Core;
+using AuditSvc.Core.ImageSets;
+using AuditSvc.Data.ImageSets;
+using Microsoft.AspNetCore.Builder;
+using Microsoft.AspNetCore.Http;
+using Microsoft.AspNetCore.Http.HttpResults;
+using Microsoft.AspNetCore.Routing;
+using Microsoft.Extensions.Options;
+
+namespace AuditSvc.Api.ImageSets;
+
+public sealed record ImageSetResponse(Guid Id, string Name, string ContentHash, int ItemCount, JsonElement Labels,
+    JsonElement Attributes, JsonElement Report, DateTime CreatedAt)
+{
+    public static ImageSetResponse From(ImageSetRow s) => new(s.Id, s.Name, s.ContentHash, s.ItemCount,
+        JsonText.Element(s.Labels), JsonText.Element(s.Attributes), JsonText.Element(s.Report), s.CreatedAt);
+}
+
+/// <summary>Registers a folder that already sits under the artifact root (path relative to it).</summary>
+public sealed record RegisterFolder(string? Path, string? Name);
+
+public static class ImageSetEndpoints
+{
+    public static RouteGroupBuilder MapImageSets(this RouteGroupBuilder api)
+    {
+        var group = api.MapGroup("/image-sets").WithTags("image-sets");
+        group.MapPost("/", Upload).DisableAntiforgery()
+            .Accepts<IFormFile>("multipart/form-data")
+            .WithSummary("Upload a .zip image set (form part 'archive', optional field 'name'); returns the intake report.")
+            .ProducesValidationProblem();
+        group.MapPost("/folder", Register)
+            .WithSummary("Register a folder under the artifact root as an image set; returns the intake report.")
+            .ProducesValidationProblem();
+        group.MapGet("/", List);
+        group.MapGet("/{id:guid}", Get);
+        return api;
+    }
+
+    private static async Task<Created<ImageSetResponse>> Upload(HttpRequest request, ArtifactStore artifacts, IAuditEngine engine,
+        ImageSetStore sets, IOptions<ServiceOptions> options, CancellationToken ct)
+    {
+        var form = await MultipartUpload.ReadAsync(request, "archive", ".zip", artifacts, options.Value.MaxUploadBytes, ct);
+        var folder = artifacts.Unpack(form.File, "archive");
+        var name = form.Fields.GetValueOrDefault("name") is { Length: > 0 } n ? n : "image set";
+        return await AddAsync(request.HttpContext, artifacts, engine, sets, name, folder, form.File.ContentHash, ct);
+    }
+
+    private static async Task<Created<ImageSetResponse>> Register(RegisterFolder body, HttpContext http, ArtifactStore artifacts,
+        IAuditEngine engine, ImageSetStore sets, CancellationToken ct)
+    {
+        var folder = artifacts.ResolveFolder(body.Path ?? "", "path");
+        return await AddAsync(http, artifacts, engine, sets, body.Name is { Length: > 0 } n ? n : folder, folder, null, ct);
+    }
+
+    private static async Task<Created<ImageSetResponse>> AddAsync(HttpContext http, ArtifactStore artifacts, IAuditEngine engine,
+        ImageSetStore sets, string name, string folder, string? contentHash, CancellationToken ct)
+    {
+        if (name.Length > 200) throw new AuditInputException("name", "longer than 200 characters");
+        var table = await engine.IntakeImageSetAsync(artifacts.FullPath(folder), ct);
+        if (table.Items.Count == 0) throw new AuditInputException("archive", $"no usable images ({table.Report.Problems.Count} problems at intake)");
+        var row = await sets.AddAsync(http.User.TeamId(), name, contentHash ?? HashOf(table), folder,
+            JsonSerializer.Serialize(table.Labels, ApiJson.Options), JsonSerializer.Serialize(table.Attributes, ApiJson.Options),
+            JsonSerializer.Serialize(table.Report, ApiJson.Options), table.Items, ct);
+        return TypedResults.Created($"/api/image-sets/{row.Id}", ImageSetResponse.From(row));
+    }
+
+    // A registered folder has no single file to hash: hash what intake read (path, label, image hash per item).
+    private static string HashOf(ItemTable table)
+    {
+        using var sha = IncrementalHash.CreateHash(HashAlgorithmName.SHA256);
+        foreach (var item in table.Items)
+            sha.AppendData(Encoding.UTF8.GetBytes($"{item.RelativePath}\t{table.Labels[item.Label]}\t{item.Sha256}\n"));
+        return "sha256:" + Convert.ToHexStringLower(sha.GetHashAndReset());
+    }
+
+    private static async Task<Ok<List<ImageSetResponse>>> List(HttpContext http, ImageSetStore sets, CancellationToken ct) =>
+        TypedResults.Ok((await sets.ListAsync(http.User.TeamId(), ct)).Select(ImageSetResponse.From).ToList());
+
+    private static async Task<Results<Ok<ImageSetResponse>, ProblemHttpResult>> Get(Guid id, HttpContext http, ImageSetStore sets, CancellationToken ct) =>
+        await sets.GetAsync(http.User.TeamId(), id, ct) is { } s
+            ? TypedResults.Ok(ImageSetResponse.From(s))
+            : TypedResults.Problem(statusCode: 404, title: $"no image set {id} for this team");
+}

@@ -1,0 +1,104 @@
+using AuditSvc.Api.Auth;
+using AuditSvc.Api.Engine;
+using AuditSvc.Api.Hosting;
+using Hangfire;
+using Hangfire.Dashboard;
+using Hangfire.PostgreSql;
+using Microsoft.AspNetCore.Authentication;
+using Microsoft.AspNetCore.Builder;
+using Microsoft.Extensions.DependencyInjection;
+using Microsoft.Extensions.DependencyInjection.Extensions;
+using Microsoft.Extensions.Hosting;
+using Microsoft.Extensions.Logging;
+using Microsoft.Extensions.Options;
+
+namespace AuditSvc.Api.Jobs;
+
+public static partial class JobServiceExtensions
+{
+    /// <summary>
+    /// Hangfire over the same PostgreSQL (schema "hangfire"), the audit jobs, and, when <paramref name="runServer"/>
+    /// and Workers &gt; 0, a job server with its reconciler in this process.
+    /// </summary>
+    public static IServiceCollection AddAuditJobs(this IServiceCollection services, ServiceOptions settings, bool runServer)
+    {
+        services.TryAddSingleton<IAuditEngine, UnavailableEngine>();
+        services.AddSingleton<AuditInputsLoader>();
+        services.AddTransient<AuditJobs>();
+        services.AddHangfire(cfg => cfg
+            .SetDataCompatibilityLevel(CompatibilityLevel.Version_180)
+            .UseSimpleAssemblyNameTypeSerializer()
+            .UseRecommendedSerializerSettings()
+            .UsePostgreSqlStorage(o => o.UseNpgsqlConnection(settings.ConnectionString), new PostgreSqlStorageOptions
+            {
+                SchemaName = "hangfire",
+                PrepareSchemaIfNecessary = true,
+                // A long chunk stays invisible while it runs (sliding), and a dead worker's job comes back
+                // after one lease; the chunk's own lease in audit_chunks guards the same thing in our tables.
+                UseSlidingInvisibilityTimeout = true,
+                InvisibilityTimeout = settings.Lease,
+                QueuePollInterval = TimeSpan.FromSeconds(1),
+            }));
+        if (runServer && settings.Workers > 0)
+        {
+            services.AddHangfireServer(o =>
+            {
+                o.WorkerCount = settings.Workers;
+                o.Queues = [AuditJobs.Queue, "default"];
+                o.ServerName = $"{Environment.MachineName}:{Environment.ProcessId}:{Guid.NewGuid().ToString("N")[..6]}";
+            });
+            services.AddHostedService<Reconciler>();
+        }
+        return services;
+    }
+
+    /// <summary>The job dashboard at /hangfire, for keys of the operator teams (or requests from this machine).</summary>
+    public static WebApplication MapJobDashboard(this WebApplication app)
+    {
+        var operators = app.Services.GetRequiredService<IOptions<ServiceOptions>>().Value.OperatorTeams
+            .Split(',', StringSplitOptions.RemoveEmptyEntries | StringSplitOptions.TrimEntries).ToHashSet(StringComparer.Ordinal);
+        app.UseHangfireDashboard("/hangfire", new DashboardOptions
+        {
+            AsyncAuthorization = [new OperatorFilter(operators)],
+            DisplayStorageConnectionString = false,
+            IsReadOnlyFunc = _ => false,
+        });
+        return app;
+    }
+
+    private sealed class OperatorFilter(HashSet<string> teams) : IDashboardAsyncAuthorizationFilter
+    {
+        public async Task<bool> AuthorizeAsync(DashboardContext context)
+        {
+            var http = context.GetHttpContext();
+            var result = await http.AuthenticateAsync(ApiKeyHandler.SchemeName);
+            if (result.Succeeded) return teams.Contains(result.Principal!.TeamName() ?? "");
+            return new LocalRequestsOnlyAuthorizationFilter().Authorize(context);
+        }
+    }
+
+    private sealed partial class Reconciler(IServiceProvider services, IOptions<ServiceOptions> options, ILogger<Reconciler> log) : BackgroundService
+    {
+        protected override async Task ExecuteAsync(CancellationToken stoppingToken)
+        {
+            var every = TimeSpan.FromSeconds(options.Value.ReconcileSeconds);
+            while (!stoppingToken.IsCancellationRequested)
+            {
+                try
+                {
+                    await Task.Delay(every, stoppingToken);
+                    var n = await services.GetRequiredService<AuditJobs>().ReconcileAsync(stoppingToken);
+                    if (n > 0) LogRequeued(n);
+                }
+                catch (OperationCanceledException) when (stoppingToken.IsCancellationRequested) { return; }
+                catch (Exception e) when (e is Npgsql.NpgsqlException or TimeoutException) { LogFailed(e); }
+            }
+        }
+
+        [LoggerMessage(EventId = 4101, Level = LogLevel.Information, Message = "reconciler re-enqueued {Count} jobs")]
+        private partial void LogRequeued(int count);
+
+        [LoggerMessage(EventId = 4102, Level = LogLevel.Warning, Message = "reconciler pass failed")]
+        private partial void LogFailed(Exception e);
+    }
+}

@@ -1,0 +1,56 @@
+using System.Text.Json;
+using AuditSvc.Api.Artifacts;
+using AuditSvc.Api.Auth;
+using AuditSvc.Api.Engine;
+using AuditSvc.Api.Hosting;
+using AuditSvc.Core;
+using AuditSvc.Data.Models;
+using Microsoft.AspNetCore.Builder;
+using Microsoft.AspNetCore.Http;
+using Microsoft.AspNetCore.Http.HttpResults;
+using Microsoft.AspNetCore.Routing;
+using Microsoft.Extensions.Options;
+
+namespace AuditSvc.Api.Models;
+
+public sealed record ModelResponse(Guid Id, string Name, string ContentHash, JsonElement Recipe, JsonElement Layers, DateTime CreatedAt)
+{
+    public static ModelResponse From(ModelRow m) =>
+        new(m.Id, m.Name, m.ContentHash, JsonText.Element(m.Recipe), JsonText.Element(m.Layers), m.CreatedAt);
+}
+
+public static class ModelEndpoints
+{
+    public static RouteGroupBuilder MapModels(this RouteGroupBuilder api)
+    {
+        var group = api.MapGroup("/models").WithTags("models");
+        group.MapPost("/", Upload).DisableAntiforgery()
+            .Accepts<IFormFile>("multipart/form-data")
+            .WithSummary("Upload an .onnx model (form part 'model') with an optional input recipe (field 'recipe', JSON) and 'name'; returns the layer catalogue.")
+            .ProducesValidationProblem();
+        group.MapGet("/", List);
+        group.MapGet("/{id:guid}", Get).WithName("GetModel");
+        return api;
+    }
+
+    private static async Task<Created<ModelResponse>> Upload(HttpRequest request, ArtifactStore artifacts, IAuditEngine engine,
+        ModelStore models, IOptions<ServiceOptions> options, CancellationToken ct)
+    {
+        var form = await MultipartUpload.ReadAsync(request, "model", ".onnx", artifacts, options.Value.MaxUploadBytes, ct);
+        var recipe = JsonText.Object(form.Fields.GetValueOrDefault("recipe"), "recipe");
+        var intake = await engine.InspectModelAsync(form.File.FullPath, recipe, ct);
+        var name = form.Fields.GetValueOrDefault("name") is { Length: > 0 } n ? n : "model";
+        if (name.Length > 200) throw new AuditInputException("name", "longer than 200 characters");
+        var row = await models.AddAsync(request.HttpContext.User.TeamId(), name, form.File.ContentHash, form.File.RelativePath,
+            intake.RecipeJson, intake.LayersJson, ct);
+        return TypedResults.Created($"/api/models/{row.Id}", ModelResponse.From(row));
+    }
+
+    private static async Task<Ok<List<ModelResponse>>> List(HttpContext http, ModelStore models, CancellationToken ct) =>
+        TypedResults.Ok((await models.ListAsync(http.User.TeamId(), ct)).Select(ModelResponse.From).ToList());
+
+    private static async Task<Results<Ok<ModelResponse>, ProblemHttpResult>> Get(Guid id, HttpContext http, ModelStore models, CancellationToken ct) =>
+        await models.GetAsync(http.User.TeamId(), id, ct) is { } m
+            ? TypedResults.Ok(ModelResponse.From(m))
+            : TypedResults.Problem(statusCode: 404, title: $"no model {id} for this team");
+}
