@@ -1,3 +1,5 @@
+using System.Runtime.InteropServices;
+
 namespace AuditSvc.Core.Statistics;
 
 /// <summary>
@@ -29,24 +31,30 @@ public static class MidRanks
         ranks = ranks[..n];
         order = order[..n];
 
-        // The rank buffer doubles as the sort key, so no second buffer is needed.
+        // The rank buffer doubles as the sort key: each 64-bit slot holds the value's bits, made to
+        // order like the value, above its index. Sorting plain integers is several times faster than
+        // sorting values with a separate index array, and needs no second buffer.
+        Span<ulong> keys = MemoryMarshal.Cast<double, ulong>(ranks);
         for (int i = 0; i < n; i++)
         {
             float v = values[i];
             if (float.IsNaN(v)) throw new ArgumentException($"Value {i} is NaN; ranks need ordered values.", nameof(values));
-            ranks[i] = v;
-            order[i] = i;
+            keys[i] = (ulong)OrderedBits(v) << 32 | (uint)i;
         }
-        ranks.Sort(order);
+        keys.Sort();
 
         // Sorted keys become the mid-rank of their sorted position, group by group.
         double tieTerm = 0;
         int start = 0;
         while (start < n)
         {
-            double key = ranks[start];
-            int end = start + 1;
-            while (end < n && ranks[end] == key) end++;
+            uint value = (uint)(keys[start] >> 32);
+            int end = start;
+            while (end < n && (uint)(keys[end] >> 32) == value)
+            {
+                order[end] = (int)(uint)keys[end];
+                end++;
+            }
             double mid = 0.5 * (start + 1 + end);
             for (int k = start; k < end; k++) ranks[k] = mid;
             double t = end - start;
@@ -56,6 +64,13 @@ public static class MidRanks
 
         ScatterInPlace(ranks, order);
         return tieTerm;
+    }
+
+    // Float bits mapped so that unsigned comparison orders like the floats; −0 is folded into +0.
+    private static uint OrderedBits(float v)
+    {
+        uint bits = BitConverter.SingleToUInt32Bits(v + 0f);
+        return (bits & 0x8000_0000u) != 0 ? ~bits : bits | 0x8000_0000u;
     }
 
     // ranks[i] belongs at position order[i]: follow the permutation's cycles, marking visited

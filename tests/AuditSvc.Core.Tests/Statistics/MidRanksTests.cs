@@ -43,6 +43,20 @@ public class MidRanksTests
     }
 
     [Fact]
+    public void Compute_SignedValuesAndZeros_MatchesPairCounting()
+    {
+        // −0 and +0 are equal floats and must tie; negatives and infinities order as numbers.
+        float[] values = [-0f, 0f, -1.5f, 2f, float.NegativeInfinity, -1e-30f, 1e-30f, float.PositiveInfinity, -1.5f, -7f];
+        var ranks = new double[values.Length];
+        MidRanks.Compute(values, ranks);
+        for (int i = 0; i < values.Length; i++)
+        {
+            int smaller = values.Count(v => v < values[i]), equal = values.Count(v => v == values[i]);
+            Assert.Equal(smaller + (equal + 1) / 2.0, ranks[i]);
+        }
+    }
+
+    [Fact]
     public void Compute_NaN_Throws()
     {
         var ranks = new double[2];
