@@ -1,0 +1,51 @@
+using AuditSvc.Core.Models;
+using Microsoft.ML.OnnxRuntime;
+
+namespace AuditSvc.Compute.Activations;
+
+/// <summary>
+/// One ONNX Runtime session over the rewritten model (class output first, then the read layers), run on
+/// buffers the caller owns. Every OrtValue is disposed before the call returns; outputs are handed to a callback
+/// while they are alive so nothing holds a span past its value's life.
+/// </summary>
+public sealed class ModelRunner : IDisposable
+{
+    private readonly InferenceSession _session;
+    private readonly string[] _inputNames;
+    private readonly string[] _outputNames;
+
+    public ModelRunner(ModelPlan plan, byte[] onnx, int threads)
+    {
+        Plan = plan;
+        using var options = new SessionOptions
+        {
+            IntraOpNumThreads = Math.Max(1, threads),
+            InterOpNumThreads = 1,
+            ExecutionMode = ExecutionMode.ORT_SEQUENTIAL,
+            GraphOptimizationLevel = GraphOptimizationLevel.ORT_ENABLE_ALL,
+        };
+        _session = new InferenceSession(onnx, options);
+        _inputNames = [plan.InputName];
+        _outputNames = [plan.OutputName, .. plan.ReadLayers.Select(l => l.Name)];
+        Channels = (int)(_session.InputMetadata[plan.InputName].Dimensions is { Length: 4 } d && d[1] > 0 ? d[1] : 3);
+    }
+
+    public ModelPlan Plan { get; }
+
+    /// <summary>Input channels (3 for colour models, 1 for grey).</summary>
+    public int Channels { get; }
+
+    public delegate void OutputHandler(ReadOnlySpan<float> classScores, IReadOnlyList<OrtValue> layers);
+
+    /// <summary>Runs <paramref name="count"/> images held in <paramref name="input"/> (NCHW) and hands the outputs over.</summary>
+    public void Run(Memory<float> input, int count, OutputHandler handle, bool readLayers = true)
+    {
+        var shape = new long[] { count, Channels, Plan.Recipe.Height, Plan.Recipe.Width };
+        using var value = OrtValue.CreateTensorValueFromMemory(OrtMemoryInfo.DefaultInstance, input[..(count * Channels * Plan.Recipe.Height * Plan.Recipe.Width)], shape);
+        var names = readLayers ? _outputNames : _outputNames[..1];
+        using var outputs = _session.Run(null, _inputNames, [value], names);
+        handle(outputs[0].GetTensorDataAsSpan<float>(), readLayers ? outputs.Skip(1).ToArray() : []);
+    }
+
+    public void Dispose() => _session.Dispose();
+}

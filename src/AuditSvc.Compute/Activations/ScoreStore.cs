@@ -1,0 +1,104 @@
+using System.Runtime.InteropServices;
+using AuditSvc.Core.Activations;
+
+namespace AuditSvc.Compute.Activations;
+
+/// <summary>
+/// The scores matrix (images × units) in float16, row-major, in blocks of rows. Blocks stay in memory until the
+/// matrix passes <see cref="MemoryLimitBytes"/>; then every block is written to a file in the spill folder and
+/// dropped, so memory stays bounded as the set grows. Reading a block of units walks the blocks once.
+/// </summary>
+public sealed class ScoreStore : IUnitScores, IDisposable
+{
+    private readonly Dictionary<int, Half[]> _memory = [];
+    private readonly HashSet<int> _onDisk = [];
+    private readonly string? _spillDir;
+    private readonly object _gate = new();
+    private long _memoryBytes;
+
+    public ScoreStore(int items, int units, int rowsPerBlock = 4096, long memoryLimitBytes = 512L << 20, string? spillDir = null)
+    {
+        ItemCount = items;
+        UnitCount = units;
+        RowsPerBlock = Math.Max(1, rowsPerBlock);
+        MemoryLimitBytes = memoryLimitBytes;
+        _spillDir = spillDir;
+    }
+
+    public int ItemCount { get; }
+
+    public int UnitCount { get; }
+
+    public int RowsPerBlock { get; }
+
+    public long MemoryLimitBytes { get; }
+
+    public bool Spilled => _onDisk.Count > 0;
+
+    /// <summary>Writes one image's scores (length <see cref="UnitCount"/>). Thread-safe across rows.</summary>
+    public void WriteRow(int item, ReadOnlySpan<float> scores)
+    {
+        int block = item / RowsPerBlock;
+        Half[] data;
+        lock (_gate)
+        {
+            if (!_memory.TryGetValue(block, out data!))
+            {
+                int rows = Math.Min(RowsPerBlock, ItemCount - block * RowsPerBlock);
+                data = new Half[(long)rows * UnitCount];
+                data.AsSpan().Fill(Half.NaN);
+                _memory[block] = data;
+                _memoryBytes += data.Length * 2L;
+            }
+        }
+        var row = data.AsSpan((item - block * RowsPerBlock) * UnitCount, UnitCount);
+        for (int u = 0; u < row.Length; u++) row[u] = (Half)scores[u];
+    }
+
+    /// <summary>Moves finished blocks to disk while memory is over the limit (call between batches).</summary>
+    public void SpillIfNeeded(int completeBelowItem)
+    {
+        if (_spillDir is null) return;
+        lock (_gate)
+        {
+            if (_memoryBytes <= MemoryLimitBytes) return;
+            Directory.CreateDirectory(_spillDir);
+            foreach (var block in _memory.Keys.Where(b => (b + 1) * RowsPerBlock <= completeBelowItem).ToList())
+            {
+                var data = _memory[block];
+                File.WriteAllBytes(BlockPath(block), MemoryMarshal.AsBytes(data.AsSpan()).ToArray());
+                _memory.Remove(block);
+                _onDisk.Add(block);
+                _memoryBytes -= data.Length * 2L;
+            }
+        }
+    }
+
+    public void ReadUnits(int firstUnit, int count, Span<float> destination)
+    {
+        destination.Fill(float.NaN);
+        int blocks = (ItemCount + RowsPerBlock - 1) / RowsPerBlock;
+        for (int block = 0; block < blocks; block++)
+        {
+            Half[]? data;
+            lock (_gate) _memory.TryGetValue(block, out data);
+            if (data is null && _onDisk.Contains(block))
+                data = MemoryMarshal.Cast<byte, Half>(File.ReadAllBytes(BlockPath(block))).ToArray();
+            if (data is null) continue;
+            int rows = data.Length / UnitCount, start = block * RowsPerBlock;
+            for (int r = 0; r < rows; r++)
+            {
+                var row = data.AsSpan(r * UnitCount + firstUnit, count);
+                for (int k = 0; k < count; k++) destination[k * ItemCount + start + r] = (float)row[k];
+            }
+        }
+    }
+
+    private string BlockPath(int block) => Path.Combine(_spillDir!, $"scores-{block:D6}.f16");
+
+    public void Dispose()
+    {
+        if (_spillDir is not null && Directory.Exists(_spillDir))
+            foreach (var b in _onDisk) File.Delete(BlockPath(b));
+    }
+}

@@ -1,0 +1,219 @@
+using System.Globalization;
+using System.IO.Compression;
+using System.Security.Cryptography;
+using AuditSvc.Core;
+using AuditSvc.Core.ImageSets;
+using CsvHelper;
+using CsvHelper.Configuration;
+using SixLabors.ImageSharp;
+
+namespace AuditSvc.Compute.ImageSets;
+
+/// <summary>
+/// Reads an image set: a CSV manifest (image, label, any other column an attribute), a class-per-folder tree
+/// with an optional attributes.csv, or a .zip of either. Every row and file is checked first; bad rows are
+/// reported by row number and reason and skipped, never silently; a set with no usable row is an error.
+/// </summary>
+public static class SetIntake
+{
+    public const string ManifestName = "manifest.csv";
+    public const string FolderAttributesName = "attributes.csv";
+    private static readonly string[] ImageExtensions = [".png", ".jpg", ".jpeg", ".bmp", ".gif", ".webp", ".tga", ".tif", ".tiff"];
+
+    /// <param name="source">A manifest CSV, a folder, or a .zip.</param>
+    /// <param name="classNames">The model's class names in output order, when known: labels must be among them.</param>
+    /// <param name="extractRoot">Where a .zip is unpacked (a fresh folder under it).</param>
+    public static ItemTable Read(string source, IReadOnlyList<string>? classNames, string extractRoot)
+    {
+        if (File.Exists(source) && source.EndsWith(".zip", StringComparison.OrdinalIgnoreCase))
+            return ReadFolderOrManifest(Unzip(source, extractRoot), classNames, source);
+        return ReadFolderOrManifest(source, classNames, source);
+    }
+
+    private static ItemTable ReadFolderOrManifest(string path, IReadOnlyList<string>? classNames, string shownSource)
+    {
+        if (File.Exists(path)) return FromManifest(path, classNames, shownSource);
+        if (!Directory.Exists(path)) throw new AuditInputException(path, "no such file or folder (expected a manifest .csv, a class-per-folder tree or a .zip)");
+        var manifest = Path.Combine(path, ManifestName);
+        if (File.Exists(manifest)) return FromManifest(manifest, classNames, shownSource);
+        var dirs = Directory.GetDirectories(path);
+        if (dirs.Length == 1 && Directory.GetFiles(path).Length == 0 && File.Exists(Path.Combine(dirs[0], ManifestName)))
+            return FromManifest(Path.Combine(dirs[0], ManifestName), classNames, shownSource);
+        return FromFolders(path, classNames, shownSource);
+    }
+
+    private static string Unzip(string zip, string extractRoot)
+    {
+        var target = Path.Combine(extractRoot, "set-" + Path.GetFileNameWithoutExtension(zip) + "-" + Guid.NewGuid().ToString("N")[..8]);
+        Directory.CreateDirectory(target);
+        try
+        {
+            using var archive = ZipFile.OpenRead(zip);
+            var root = Path.GetFullPath(target) + Path.DirectorySeparatorChar;
+            foreach (var entry in archive.Entries)
+            {
+                var dest = Path.GetFullPath(Path.Combine(target, entry.FullName));
+                if (!dest.StartsWith(root, StringComparison.Ordinal))
+                    throw new AuditInputException(zip, $"entry '{entry.FullName}' points outside the archive");
+                if (entry.FullName.EndsWith('/')) { Directory.CreateDirectory(dest); continue; }
+                Directory.CreateDirectory(Path.GetDirectoryName(dest)!);
+                entry.ExtractToFile(dest, overwrite: false);
+            }
+        }
+        catch (InvalidDataException e)
+        {
+            throw new AuditInputException(zip, "not a readable .zip archive", e);
+        }
+        return target;
+    }
+
+    private static ItemTable FromManifest(string manifest, IReadOnlyList<string>? classNames, string shownSource)
+    {
+        var dir = Path.GetDirectoryName(Path.GetFullPath(manifest))!;
+        var rows = new List<RawRow>();
+        string[] header;
+        try
+        {
+            using var reader = new StreamReader(manifest);
+            using var csv = new CsvReader(reader, new CsvConfiguration(CultureInfo.InvariantCulture) { TrimOptions = TrimOptions.Trim, BadDataFound = null, MissingFieldFound = null, DetectColumnCountChanges = false });
+            if (!csv.Read() || !csv.ReadHeader() || csv.HeaderRecord is null)
+                throw new AuditInputException(manifest, "empty manifest: expected a header with columns 'image' and 'label'");
+            header = csv.HeaderRecord;
+            int imageCol = Array.FindIndex(header, h => h.Equals("image", StringComparison.OrdinalIgnoreCase));
+            int labelCol = Array.FindIndex(header, h => h.Equals("label", StringComparison.OrdinalIgnoreCase));
+            if (imageCol < 0) throw new AuditInputException(manifest, "header has no 'image' column (the image path relative to the manifest)");
+            if (labelCol < 0) throw new AuditInputException(manifest, "header has no 'label' column");
+            var attrCols = Enumerable.Range(0, header.Length).Where(i => i != imageCol && i != labelCol).ToArray();
+            var dup = attrCols.GroupBy(i => header[i], StringComparer.OrdinalIgnoreCase).FirstOrDefault(g => g.Count() > 1 || string.IsNullOrWhiteSpace(g.Key));
+            if (dup is not null) throw new AuditInputException(manifest, $"column name '{dup.Key}' is empty or repeated");
+            int row = 0;
+            while (csv.Read())
+            {
+                row++;
+                var cells = Enumerable.Range(0, header.Length).Select(i => csv.TryGetField<string>(i, out var s) ? s ?? "" : "").ToArray();
+                rows.Add(new RawRow(row, cells[imageCol], cells[labelCol], attrCols.Select(i => cells[i]).ToArray()));
+            }
+            return Build(dir, shownSource, rows, attrCols.Select(i => header[i]).ToArray(), classNames);
+        }
+        catch (CsvHelperException e)
+        {
+            throw new AuditInputException(manifest, $"not a readable CSV file ({e.Message.Split('\n')[0]})", e);
+        }
+    }
+
+    private static ItemTable FromFolders(string root, IReadOnlyList<string>? classNames, string shownSource)
+    {
+        var rows = new List<RawRow>();
+        int row = 0;
+        foreach (var labelDir in Directory.GetDirectories(root).OrderBy(d => d, StringComparer.Ordinal))
+        {
+            var label = Path.GetFileName(labelDir);
+            foreach (var file in Directory.EnumerateFiles(labelDir, "*", SearchOption.AllDirectories).Order(StringComparer.Ordinal))
+            {
+                if (!ImageExtensions.Contains(Path.GetExtension(file).ToLowerInvariant())) continue;
+                rows.Add(new RawRow(++row, Path.GetRelativePath(root, file).Replace('\\', '/'), label, []));
+            }
+        }
+        if (rows.Count == 0) throw new AuditInputException(root, $"no {ManifestName} and no class folders with images");
+        string[] names = [];
+        var attrFile = Path.Combine(root, FolderAttributesName);
+        if (File.Exists(attrFile))
+        {
+            var table = ReadAttributeTable(attrFile);
+            names = table.Names;
+            rows = rows.Select(r => r with { Attributes = table.Rows.TryGetValue(r.Image, out var v) ? v : new string[names.Length] }).ToList();
+        }
+        return Build(root, shownSource, rows, names, classNames);
+    }
+
+    private static (string[] Names, Dictionary<string, string[]> Rows) ReadAttributeTable(string file)
+    {
+        using var reader = new StreamReader(file);
+        using var csv = new CsvReader(reader, new CsvConfiguration(CultureInfo.InvariantCulture) { TrimOptions = TrimOptions.Trim, BadDataFound = null, MissingFieldFound = null });
+        if (!csv.Read() || !csv.ReadHeader() || csv.HeaderRecord is null) throw new AuditInputException(file, "empty attribute file");
+        var header = csv.HeaderRecord;
+        int imageCol = Array.FindIndex(header, h => h.Equals("image", StringComparison.OrdinalIgnoreCase));
+        if (imageCol < 0) throw new AuditInputException(file, "header has no 'image' column (path relative to the set's folder)");
+        var cols = Enumerable.Range(0, header.Length).Where(i => i != imageCol).ToArray();
+        var rows = new Dictionary<string, string[]>(StringComparer.Ordinal);
+        while (csv.Read())
+        {
+            var image = (csv.GetField(imageCol) ?? "").Replace('\\', '/');
+            rows[image] = cols.Select(i => csv.TryGetField<string>(i, out var s) ? s ?? "" : "").ToArray();
+        }
+        return (cols.Select(i => header[i]).ToArray(), rows);
+    }
+
+    private sealed record RawRow(int Row, string Image, string Label, string?[] Attributes);
+
+    private static ItemTable Build(string dir, string source, List<RawRow> rows, string[] attrNames, IReadOnlyList<string>? classNames)
+    {
+        var problems = new List<IntakeProblem>();
+        var labels = classNames?.ToList() ?? InferLabels(rows);
+        var labelIndex = labels.Select((l, i) => (l, i)).ToDictionary(t => t.l, t => t.i, StringComparer.Ordinal);
+        var seen = new HashSet<string>(StringComparer.Ordinal);
+        var candidates = new List<(RawRow Row, string Full, int Label)>();
+        foreach (var r in rows)
+        {
+            if (string.IsNullOrWhiteSpace(r.Image)) { problems.Add(new(r.Row, "", "empty 'image' cell")); continue; }
+            var rel = r.Image.Replace('\\', '/');
+            var full = Path.GetFullPath(Path.Combine(dir, rel));
+            if (!seen.Add(full)) { problems.Add(new(r.Row, rel, "duplicate path (already listed on an earlier row)")); continue; }
+            if (string.IsNullOrWhiteSpace(r.Label)) { problems.Add(new(r.Row, rel, "empty 'label' cell")); continue; }
+            if (!labelIndex.TryGetValue(r.Label, out int li))
+            {
+                problems.Add(new(r.Row, rel, $"unknown label '{r.Label}' (the model's classes: {string.Join(", ", labels)})"));
+                continue;
+            }
+            candidates.Add((r, full, li));
+        }
+        // File checks (exists, decodable header) and hashes in parallel; order is kept.
+        var checkedRows = new (string? Hash, string? Problem)[candidates.Count];
+        Parallel.For(0, candidates.Count, i => checkedRows[i] = CheckFile(candidates[i].Full));
+        var attrCells = new List<string?[]>();
+        var kept = new List<(RawRow Row, string Full, int Label, string Hash)>();
+        for (int i = 0; i < candidates.Count; i++)
+        {
+            var (r, full, li) = candidates[i];
+            if (checkedRows[i].Problem is { } why) { problems.Add(new(r.Row, r.Image, why)); continue; }
+            kept.Add((r, full, li, checkedRows[i].Hash!));
+            attrCells.Add(r.Attributes);
+        }
+        if (kept.Count == 0)
+            throw new AuditInputException(source, $"no usable rows ({rows.Count} read, {problems.Count} rejected{(problems.Count > 0 ? "; first: row " + problems[0].Row + " " + problems[0].File + ": " + problems[0].Reason : "")})");
+        var columns = AttributeBinning.Build(attrNames, attrCells, out var codes);
+        var items = kept.Select((k, i) => new ImageItem(i, k.Row.Row, k.Full, k.Row.Image, k.Label, codes[i], k.Hash)).ToList();
+        var report = new IntakeReport(source, rows.Count, items.Count, problems.OrderBy(p => p.Row ?? 0).ToList());
+        return new ItemTable(labels, columns, items, report);
+    }
+
+    private static List<string> InferLabels(List<RawRow> rows)
+    {
+        var distinct = rows.Select(r => r.Label).Where(l => !string.IsNullOrWhiteSpace(l)).Distinct(StringComparer.Ordinal).ToList();
+        // Integer labels are class indices; anything else needs the class names (--labels or the recipe).
+        if (distinct.All(l => int.TryParse(l, NumberStyles.None, CultureInfo.InvariantCulture, out _)))
+        {
+            int max = distinct.Count == 0 ? -1 : distinct.Max(l => int.Parse(l, CultureInfo.InvariantCulture));
+            return Enumerable.Range(0, max + 1).Select(i => i.ToString(CultureInfo.InvariantCulture)).ToList();
+        }
+        throw new AuditInputException("label", $"labels are names ({string.Join(", ", distinct.Take(5))}…) but the model's class names are unknown: give --labels in output order or class_names in the model's recipe file");
+    }
+
+    private static (string? Hash, string? Problem) CheckFile(string full)
+    {
+        if (!File.Exists(full)) return (null, "file not found");
+        try
+        {
+            var bytes = File.ReadAllBytes(full);
+            if (bytes.Length == 0) return (null, "empty file");
+            var info = Image.Identify(bytes);
+            if (info is null) return (null, "not a decodable image (unknown format)");
+            if (info.Width < 1 || info.Height < 1) return (null, "image has no pixels");
+            return (Convert.ToHexStringLower(SHA256.HashData(bytes)), null);
+        }
+        catch (Exception e) when (e is UnknownImageFormatException or InvalidImageContentException or NotSupportedException or IOException or UnauthorizedAccessException)
+        {
+            return (null, $"not a decodable image ({e.GetType().Name}: {e.Message.Split('\n')[0]})");
+        }
+    }
+}

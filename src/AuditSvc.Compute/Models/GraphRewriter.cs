@@ -1,0 +1,93 @@
+using AuditSvc.Core.Models;
+using Google.Protobuf;
+using Microsoft.ML.OnnxRuntime;
+using Onnx;
+
+namespace AuditSvc.Compute.Models;
+
+/// <summary>Rewrites a graph so the read layers are outputs, and frees a fixed batch dimension when that is safe.</summary>
+public static class GraphRewriter
+{
+    private const string BatchParam = "N";
+
+    /// <summary>
+    /// A copy of the model whose outputs are the class output followed by <paramref name="read"/>;
+    /// with <paramref name="symbolicBatch"/> the input's and outputs' batch dimension becomes symbolic.
+    /// </summary>
+    public static ModelProto ExposeLayers(ModelProto model, string inputName, string classOutput,
+        IReadOnlyList<LayerInfo> read, bool symbolicBatch)
+    {
+        var copy = model.Clone();
+        var graph = copy.Graph;
+        var classInfo = graph.Output.First(o => o.Name == classOutput).Clone();
+        graph.Output.Clear();
+        graph.Output.Add(classInfo);
+        foreach (var layer in read)
+        {
+            long[] dims = layer.Rank == 4 ? [1, layer.Channels, layer.Height, layer.Width] : [1, layer.Channels];
+            graph.Output.Add(FloatInfo(layer.Name, dims));
+        }
+        if (symbolicBatch)
+        {
+            // Stale fixed-batch shapes in value_info would contradict the symbolic batch; ORT re-infers them.
+            graph.ValueInfo.Clear();
+            SetBatch(graph.Input.First(i => i.Name == inputName));
+            foreach (var o in graph.Output) SetBatch(o);
+        }
+        return copy;
+    }
+
+    private static ValueInfoProto FloatInfo(string name, long[] dims)
+    {
+        var shape = new TensorShapeProto();
+        foreach (var d in dims) shape.Dim.Add(new TensorShapeProto.Types.Dimension { DimValue = d });
+        return new ValueInfoProto
+        {
+            Name = name,
+            Type = new TypeProto { TensorType = new TypeProto.Types.Tensor { ElemType = (int)TensorProto.Types.DataType.Float, Shape = shape } },
+        };
+    }
+
+    private static void SetBatch(ValueInfoProto info)
+    {
+        var dims = info.Type?.TensorType?.Shape?.Dim;
+        if (dims is { Count: > 0 }) dims[0] = new TensorShapeProto.Types.Dimension { DimParam = BatchParam };
+    }
+
+    /// <summary>
+    /// True when the symbolic-batch model run on a batch of <paramref name="batch"/> random images gives,
+    /// on every output, what the batch-1 model gives image by image, within 1e-4 relative to the output's
+    /// largest magnitude (at least 1). A model that cannot run batched (a Reshape fixed to 1, say) fails.
+    /// </summary>
+    public static bool BatchMatchesSingles(ModelProto single, ModelProto batched, string inputName, long[] imageShape, int batch = 3, int seed = 17)
+    {
+        long[] batchShape = [batch, .. imageShape[1..]];
+        var noise = OrtRunner.Noise(batchShape, seed);
+        int per = noise.Data.Length / batch;
+        IReadOnlyDictionary<string, FloatTensor> together;
+        try
+        {
+            together = OrtRunner.Run(batched.ToByteArray(), inputName, noise);
+        }
+        catch (OnnxRuntimeException)
+        {
+            return false;
+        }
+        var singleBytes = single.ToByteArray();
+        for (int b = 0; b < batch; b++)
+        {
+            var one = new FloatTensor([1, .. imageShape[1..]], noise.Data.AsSpan(b * per, per).ToArray());
+            var alone = OrtRunner.Run(singleBytes, inputName, one);
+            foreach (var (name, t) in alone)
+            {
+                if (!together.TryGetValue(name, out var all) || all.Shape.Length == 0 || all.Shape[0] != batch
+                    || all.Data.Length != t.Data.Length * batch) return false;
+                float scale = Math.Max(1f, t.Data.Length == 0 ? 1f : t.Data.Max(Math.Abs));
+                var slice = all.Data.AsSpan(b * t.Data.Length, t.Data.Length);
+                for (int i = 0; i < slice.Length; i++)
+                    if (!(Math.Abs(slice[i] - t.Data[i]) <= 1e-4f * scale)) return false;
+            }
+        }
+        return true;
+    }
+}

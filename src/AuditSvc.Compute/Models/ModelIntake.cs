@@ -1,0 +1,99 @@
+using System.Security.Cryptography;
+using AuditSvc.Core;
+using AuditSvc.Core.Models;
+using Google.Protobuf;
+using Microsoft.ML.OnnxRuntime;
+using Onnx;
+
+namespace AuditSvc.Compute.Models;
+
+/// <summary>How to load a model.</summary>
+/// <param name="Layers">Tensor names to read instead of the defaults.</param>
+/// <param name="Recipe">Explicit recipe settings; they win over the recipe file beside the model.</param>
+/// <param name="CheckBatch">When the batch dimension is fixed at 1, test whether it can be freed.</param>
+public sealed record ModelLoadOptions(IReadOnlyList<string>? Layers = null, RecipeOverrides? Recipe = null, bool CheckBatch = true);
+
+/// <summary>A checked model: its plan, and the rewritten ONNX bytes whose outputs are
+/// [class output, <see cref="ModelPlan.ReadLayers"/> in that order].</summary>
+public sealed record LoadedModel(ModelPlan Plan, byte[] RewrittenModel);
+
+/// <summary>
+/// Model intake: checks an ONNX file, resolves its input recipe, catalogues its layers with receptive
+/// fields, picks the layers to read and rewrites the graph to expose them.
+/// </summary>
+public static class ModelIntake
+{
+    /// <summary>Loads and checks the model; throws <see cref="AuditInputException"/> naming the file and field on bad input.</summary>
+    public static LoadedModel Load(string modelPath, ModelLoadOptions? options = null)
+    {
+        ArgumentNullException.ThrowIfNull(modelPath);
+        options ??= new ModelLoadOptions();
+        if (!File.Exists(modelPath)) throw new AuditInputException(modelPath, "model file not found");
+        var bytes = File.ReadAllBytes(modelPath);
+        var model = OnnxGuard.Parse(modelPath, bytes);
+        OnnxGuard.RejectExternalData(modelPath, model);
+        var input = OnnxGuard.ImageInputOf(modelPath, model);
+        if (input.Batch is > 1)
+            throw new AuditInputException(modelPath,
+                $"graph input '{input.Name}' has its batch dimension fixed at {input.Batch} (field 'shape', dimension 0); export it with batch 1 or a symbolic batch");
+
+        var recipePath = RecipeLoader.RecipePathFor(modelPath);
+        var recipe = RecipeLoader.Resolve(input, RecipeLoader.ReadFile(recipePath), options.Recipe, recipePath);
+        long[] imageShape = [1, input.Channels, recipe.Height, recipe.Width];
+
+        var graph = model.Graph;
+        if (graph.Output.Count == 0) throw new AuditInputException(modelPath, "the graph has no outputs (field 'output')");
+        string classOutput = graph.Output[0].Name;
+        var shapes = Guarded(modelPath, () => OrtRunner.ProbeShapes(model, input.Name, imageShape));
+        if (!shapes.TryGetValue(classOutput, out var classShape) || classShape.Length < 2)
+            throw new AuditInputException(modelPath, $"the first graph output '{classOutput}' is not a float tensor [N, classes] (field 'output')");
+        int classCount = checked((int)classShape.Skip(1).Aggregate(1L, (a, b) => a * b));
+        if (recipe.ClassNames is { } names && names.Count != classCount)
+            throw new AuditInputException(options.Recipe?.ClassNames is null ? recipePath : "--labels",
+                $"field 'class_names' has {names.Count} names, the model's output '{classOutput}' has {classCount} classes");
+
+        var candidates = LayerCatalog.Candidates(graph, input.Name, shapes, recipe.Height, recipe.Width);
+        if (candidates.Count == 0)
+            throw new AuditInputException(modelPath, "the graph has no readable layers (float tensors [N,C,H,W] or [N,C] computed from the image)");
+        var layers = LayerCatalog.MarkDefaults(graph, candidates, classOutput);
+        var read = options.Layers is { Count: > 0 } wanted
+            ? LayerCatalog.Select(modelPath, layers, wanted)
+            : layers.Where(l => l.IsDefault).ToList();
+
+        var single = GraphRewriter.ExposeLayers(model, input.Name, classOutput, read, symbolicBatch: input.Batch is null);
+        var batchMode = BatchMode.Batched;
+        var rewritten = single;
+        if (input.Batch == 1)
+        {
+            var batched = GraphRewriter.ExposeLayers(model, input.Name, classOutput, read, symbolicBatch: true);
+            bool free = options.CheckBatch
+                && Guarded(modelPath, () => GraphRewriter.BatchMatchesSingles(single, batched, input.Name, imageShape));
+            if (free) rewritten = batched;
+            else batchMode = BatchMode.ConcurrentSingle;
+        }
+
+        var producer = graph.Node.FirstOrDefault(n => n.Output.Contains(classOutput));
+        var plan = new ModelPlan(
+            Path.GetFullPath(modelPath),
+            Convert.ToHexStringLower(SHA256.HashData(bytes)),
+            input.Name, classOutput, classCount, recipe, layers, batchMode,
+            OutputIsProbabilities: producer?.OpType == "Softmax")
+        {
+            ReadLayers = read,
+        };
+        return new LoadedModel(plan, rewritten.ToByteArray());
+    }
+
+    // ONNX Runtime refusing the graph is a problem with the file, not with the service.
+    private static T Guarded<T>(string modelPath, Func<T> run)
+    {
+        try
+        {
+            return run();
+        }
+        catch (OnnxRuntimeException e)
+        {
+            throw new AuditInputException(modelPath, $"ONNX Runtime cannot run the model ({e.Message})", e);
+        }
+    }
+}
