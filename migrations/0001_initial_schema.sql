@@ -42,12 +42,14 @@ CREATE TABLE image_sets (
 );
 CREATE INDEX image_sets_team ON image_sets(team_id, created_at DESC);
 
--- One row per usable image, in intake order; chunks address items by idx ranges.
+-- One row per usable image, in intake order; chunks address items by idx ranges. relative_path is as
+-- intake reported it (it appears in audit.json); file_path locates the file from the image set's folder.
 CREATE TABLE items (
     image_set_id   uuid NOT NULL REFERENCES image_sets(id) ON DELETE CASCADE,
     idx            integer NOT NULL,
     source_row     integer NOT NULL,
     relative_path  text NOT NULL,
+    file_path      text NOT NULL,
     label          integer NOT NULL,
     attributes     integer[] NOT NULL,
     sha256         text NOT NULL,

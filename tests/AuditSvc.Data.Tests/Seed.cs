@@ -16,7 +16,7 @@ internal sealed record Seed(Team Team, ModelRow Model, ImageSetRow Set)
         var model = await new ModelStore(db.DataSource).AddAsync(team.Id, "m", "sha256:aa", "models/aa.onnx", "{}", "[]", ct);
         var rows = Enumerable.Range(0, items)
             .Select(i => new ImageItem(i, i + 1, $"/x/{i}.png", $"{i}.png", i % 2, [i % 3], $"h{i}")).ToList();
-        var set = await new ImageSetStore(db.DataSource).AddAsync(team.Id, "s", "sha256:bb", "sets/bb", "[\"a\",\"b\"]", "[]", "{}", rows, ct);
+        var set = await new ImageSetStore(db.DataSource).AddAsync(team.Id, "s", "sha256:bb", "sets/bb", "[\"a\",\"b\"]", "[]", "{}", rows, "/x", ct);
         return new Seed(team, model, set);
     }
 

@@ -90,6 +90,36 @@ public sealed class ArtifactStore(IOptions<ServiceOptions> options)
         }
     }
 
+    /// <summary>
+    /// The engine reads a model's recipe from &lt;name&gt;.recipe.json beside it, and one file may be uploaded
+    /// with different recipes: each (model, recipe) pair gets a folder named by both hashes, holding a link
+    /// to the stored model and the recipe text. Returns the model path in it, relative to the root.
+    /// </summary>
+    public string PlaceModel(StoredArtifact model, string? recipeJson)
+    {
+        var modelHash = model.ContentHash.Replace("sha256:", "", StringComparison.Ordinal);
+        var recipeHash = recipeJson is null ? "none"
+            : Convert.ToHexStringLower(SHA256.HashData(System.Text.Encoding.UTF8.GetBytes(recipeJson)))[..16];
+        var relative = Path.Combine("models", $"{modelHash[..16]}-{recipeHash}", "model.onnx");
+        var full = Path.Combine(Root, relative);
+        if (File.Exists(full)) return relative;
+        var temp = Path.Combine(Root, "scratch", Guid.NewGuid().ToString("N"));
+        Directory.CreateDirectory(temp);
+        try
+        {
+            File.CreateSymbolicLink(Path.Combine(temp, "model.onnx"), Path.GetRelativePath(Path.GetDirectoryName(full)!, model.FullPath));
+            if (recipeJson is not null) File.WriteAllText(Path.Combine(temp, "model.recipe.json"), recipeJson);
+            Directory.CreateDirectory(Path.GetDirectoryName(Path.GetDirectoryName(full)!)!);
+            try { Directory.Move(temp, Path.GetDirectoryName(full)!); }
+            catch (IOException) when (File.Exists(full)) { /* placed by an identical upload */ }
+            return relative;
+        }
+        finally
+        {
+            if (Directory.Exists(temp)) Directory.Delete(temp, recursive: true);
+        }
+    }
+
     /// <summary>Resolves a folder given relative to the root; refuses anything outside the root.</summary>
     public string ResolveFolder(string relative, string field)
     {

@@ -15,7 +15,8 @@ public sealed record AuditInputs(Guid AuditId, string ModelPath, string RecipeJs
 /// </summary>
 public interface IAuditEngine
 {
-    Task<ModelIntake> InspectModelAsync(string modelPath, string? recipeJson, CancellationToken ct);
+    /// <summary>Checks a model file; its recipe, when one was given, sits beside it as &lt;name&gt;.recipe.json.</summary>
+    Task<ModelIntake> InspectModelAsync(string modelPath, CancellationToken ct);
 
     /// <summary>Reads an unpacked image set folder (manifest CSV or class-per-folder).</summary>
     Task<ItemTable> IntakeImageSetAsync(string folder, CancellationToken ct);

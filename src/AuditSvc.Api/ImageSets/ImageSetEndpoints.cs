@@ -67,7 +67,7 @@ public static class ImageSetEndpoints
         if (table.Items.Count == 0) throw new AuditInputException("archive", $"no usable images ({table.Report.Problems.Count} problems at intake)");
         var row = await sets.AddAsync(http.User.TeamId(), name, contentHash ?? HashOf(table), folder,
             JsonSerializer.Serialize(table.Labels, ApiJson.Options), JsonSerializer.Serialize(table.Attributes, ApiJson.Options),
-            JsonSerializer.Serialize(table.Report, ApiJson.Options), table.Items, ct);
+            JsonSerializer.Serialize(table.Report, ApiJson.Options), table.Items, artifacts.FullPath(folder), ct);
         return TypedResults.Created($"/api/image-sets/{row.Id}", ImageSetResponse.From(row));
     }
 

@@ -22,7 +22,7 @@ public static partial class JobServiceExtensions
     /// </summary>
     public static IServiceCollection AddAuditJobs(this IServiceCollection services, ServiceOptions settings, bool runServer)
     {
-        services.TryAddSingleton<IAuditEngine, UnavailableEngine>();
+        services.TryAddSingleton<IAuditEngine, ComputeEngine>();
         services.AddSingleton<AuditInputsLoader>();
         services.AddTransient<AuditJobs>();
         services.AddHangfire(cfg => cfg

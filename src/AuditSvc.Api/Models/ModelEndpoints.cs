@@ -38,10 +38,11 @@ public static class ModelEndpoints
     {
         var form = await MultipartUpload.ReadAsync(request, "model", ".onnx", artifacts, options.Value.MaxUploadBytes, ct);
         var recipe = JsonText.Object(form.Fields.GetValueOrDefault("recipe"), "recipe");
-        var intake = await engine.InspectModelAsync(form.File.FullPath, recipe, ct);
+        var placed = artifacts.PlaceModel(form.File, recipe);
+        var intake = await engine.InspectModelAsync(artifacts.FullPath(placed), ct);
         var name = form.Fields.GetValueOrDefault("name") is { Length: > 0 } n ? n : "model";
         if (name.Length > 200) throw new AuditInputException("name", "longer than 200 characters");
-        var row = await models.AddAsync(request.HttpContext.User.TeamId(), name, form.File.ContentHash, form.File.RelativePath,
+        var row = await models.AddAsync(request.HttpContext.User.TeamId(), name, form.File.ContentHash, placed,
             intake.RecipeJson, intake.LayersJson, ct);
         return TypedResults.Created($"/api/models/{row.Id}", ModelResponse.From(row));
     }

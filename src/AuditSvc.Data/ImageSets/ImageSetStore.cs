@@ -17,9 +17,13 @@ public sealed class ImageSetStore(NpgsqlDataSource db)
         created_at AS CreatedAt
         """;
 
-    /// <summary>Adds the set and its items in one transaction; items go in by binary COPY (sets can be large).</summary>
+    /// <summary>
+    /// Adds the set and its items in one transaction; items go in by binary COPY (sets can be large). Each item's
+    /// full <see cref="ImageItem.Path"/> is kept relative to <paramref name="folder"/>, the set's folder on disk.
+    /// </summary>
     public async Task<ImageSetRow> AddAsync(Guid teamId, string name, string contentHash, string relativePath,
-        string labelsJson, string attributesJson, string reportJson, IReadOnlyList<ImageItem> items, CancellationToken ct)
+        string labelsJson, string attributesJson, string reportJson, IReadOnlyList<ImageItem> items, string folder,
+        CancellationToken ct)
     {
         await using var conn = await db.OpenConnectionAsync(ct);
         await using var tx = await conn.BeginTransactionAsync(ct);
@@ -32,7 +36,7 @@ public sealed class ImageSetStore(NpgsqlDataSource db)
             """, new { id = Guid.CreateVersion7(), teamId, name, contentHash, relativePath, labelsJson, attributesJson,
                        reportJson, count = items.Count }, tx, cancellationToken: ct));
         await using (var copy = await conn.BeginBinaryImportAsync(
-            "COPY items (image_set_id, idx, source_row, relative_path, label, attributes, sha256) FROM STDIN (FORMAT BINARY)", ct))
+            "COPY items (image_set_id, idx, source_row, relative_path, file_path, label, attributes, sha256) FROM STDIN (FORMAT BINARY)", ct))
         {
             foreach (var item in items)
             {
@@ -41,6 +45,7 @@ public sealed class ImageSetStore(NpgsqlDataSource db)
                 await copy.WriteAsync(item.Index, NpgsqlDbType.Integer, ct);
                 await copy.WriteAsync(item.Row, NpgsqlDbType.Integer, ct);
                 await copy.WriteAsync(item.RelativePath, NpgsqlDbType.Text, ct);
+                await copy.WriteAsync(Path.GetRelativePath(folder, item.Path), NpgsqlDbType.Text, ct);
                 await copy.WriteAsync(item.Label, NpgsqlDbType.Integer, ct);
                 await copy.WriteAsync(item.AttributeValues, NpgsqlDbType.Array | NpgsqlDbType.Integer, ct);
                 await copy.WriteAsync(item.Sha256, NpgsqlDbType.Text, ct);
@@ -67,17 +72,17 @@ public sealed class ImageSetStore(NpgsqlDataSource db)
             new { teamId }, cancellationToken: ct))).ToList();
     }
 
-    /// <summary>Items in index order; <paramref name="root"/> is prefixed to each relative path to give a full path.</summary>
-    public async Task<IReadOnlyList<ImageItem>> ItemsAsync(Guid imageSetId, string root, CancellationToken ct)
+    /// <summary>Items in index order, each file located under <paramref name="folder"/> (the set's folder on disk now).</summary>
+    public async Task<IReadOnlyList<ImageItem>> ItemsAsync(Guid imageSetId, string folder, CancellationToken ct)
     {
         await using var conn = await db.OpenConnectionAsync(ct);
-        var rows = await conn.QueryAsync<(int Idx, int SourceRow, string RelativePath, int Label, int[] Attributes, string Sha256)>(
+        var rows = await conn.QueryAsync<(int Idx, int SourceRow, string RelativePath, string FilePath, int Label, int[] Attributes, string Sha256)>(
             new CommandDefinition(
                 """
-                SELECT idx, source_row, relative_path, label, attributes, sha256
+                SELECT idx, source_row, relative_path, file_path, label, attributes, sha256
                 FROM items WHERE image_set_id = @imageSetId ORDER BY idx
                 """, new { imageSetId }, cancellationToken: ct));
-        return rows.Select(r => new ImageItem(r.Idx, r.SourceRow, Path.Combine(root, r.RelativePath), r.RelativePath,
+        return rows.Select(r => new ImageItem(r.Idx, r.SourceRow, Path.Combine(folder, r.FilePath), r.RelativePath,
             r.Label, r.Attributes, r.Sha256)).ToList();
     }
 }
