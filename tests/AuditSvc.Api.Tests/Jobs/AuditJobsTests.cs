@@ -1,0 +1,58 @@
+using System.Net.Http.Json;
+using System.Text.Json;
+using AuditSvc.Api.Tests.Audits;
+using AuditSvc.Api.Tests.Hosting;
+
+namespace AuditSvc.Api.Tests.Jobs;
+
+public sealed class AuditJobsTests
+{
+    [PgFact]
+    public async Task Audit_TwoWorkerProcesses_ShareTheChunksAndCountEachItemOnce()
+    {
+        // The API host runs one worker in this process; a child process runs the other. Each holds its first
+        // chunk until the other process has started one, so the audit is provably shared.
+        await using var svc = await ServiceUnderTest.StartAsync(workers: 0);
+        using var client = await svc.ClientAsync("team-a");
+        var id = await AuditEndpointsTests.SubmitAsync(client, await Uploads.ModelAsync(client), await Uploads.ImageSetAsync(client, 12), 4);
+        await svc.StartWorkerAsync(new CountingEngine(svc.Markers, waitForPeers: 2));
+        var child = svc.StartWorkerProcess(peers: 2);
+
+        var end = await svc.WaitForEndAsync(client, id);
+
+        Assert.Equal(("done", 24), (end.State, end.Progress.ItemsDone));
+        var result = await client.GetFromJsonAsync<JsonElement>($"/api/audits/{id}/result");
+        Assert.Equal(24, result.GetProperty("countedOnce").GetInt32());
+        Assert.Equal(24, result.GetProperty("items").GetInt32());
+        var processes = result.GetProperty("processes").EnumerateArray().Select(p => p.GetInt32()).ToHashSet();
+        Assert.Equal(new HashSet<int> { Environment.ProcessId, child.Id }, processes);
+    }
+
+    [PgFact]
+    public async Task Audit_WorkerKilledMidChunk_CompletesWithEveryItemCountedOnce()
+    {
+        await using var svc = await ServiceUnderTest.StartAsync(workers: 0);
+        using var client = await svc.ClientAsync("team-a");
+        var id = await AuditEndpointsTests.SubmitAsync(client, await Uploads.ModelAsync(client), await Uploads.ImageSetAsync(client, 5), 3);
+        await File.WriteAllTextAsync(Path.Combine(svc.Markers, "hang"), "");
+        var doomed = svc.StartWorkerProcess();
+        // Wait until the child has claimed a chunk and is inside it, then kill it without any chance to clean up.
+        await ServiceUnderTest.PollAsync(() => Task.FromResult(Directory.GetFiles(svc.Markers, $"{doomed.Id}-*.started").Length),
+            n => n > 0, "the child worker to start a chunk");
+        doomed.Kill(entireProcessTree: true);
+        await doomed.WaitForExitAsync();
+        File.Delete(Path.Combine(svc.Markers, "hang"));
+
+        await svc.StartWorkerAsync(new CountingEngine(), workers: 2);
+        var end = await svc.WaitForEndAsync(client, id);
+
+        Assert.Equal(("done", "pass", 10), (end.State, end.Verdict, end.Progress.ItemsDone));
+        var result = await client.GetFromJsonAsync<JsonElement>($"/api/audits/{id}/result");
+        Assert.Equal(10, result.GetProperty("countedOnce").GetInt32());
+        Assert.Equal(10, result.GetProperty("items").GetInt32());
+        await using var conn = await svc.Db.DataSource.OpenConnectionAsync();
+        await using var cmd = new Npgsql.NpgsqlCommand("SELECT count(*) FROM audit_chunks WHERE audit_id = $1 AND attempt > 1", conn);
+        cmd.Parameters.Add(new Npgsql.NpgsqlParameter { Value = id });
+        Assert.Equal(1L, await cmd.ExecuteScalarAsync()); // the chunk the dead worker held, taken again after its lease ran out
+    }
+}
