@@ -77,22 +77,23 @@ public static partial class HtmlReport
             else
                 sb.Append(Stat("transplant", "not run"));
             sb.Append("</div>\n<div class=\"finding-body\">");
-            ExemplarGrid(sb, c.Exemplars, images);
+            // Whole images: for a fixed-place unit the point is where on the image it fires.
+            ExemplarGrid(sb, c.Exemplars, images, whole: true);
             sb.Append("</div></article>\n");
         }
         sb.Append("</section>\n");
     }
 
-    private static void ExemplarGrid(StringBuilder sb, IReadOnlyList<Exemplar> exemplars, IExemplarImages images)
+    private static void ExemplarGrid(StringBuilder sb, IReadOnlyList<Exemplar> exemplars, IExemplarImages images, bool whole = false)
     {
-        sb.Append("<div class=\"exemplars\">");
+        sb.Append(whole ? "<div class=\"exemplars whole\">" : "<div class=\"exemplars\">");
         foreach (var e in exemplars.Take(ExemplarsShown))
         {
-            var src = images.Crop(e);
+            var src = whole ? images.Whole(e) : images.Crop(e);
             sb.Append("<figure title=\"").Append(E(e.Image)).Append(" · box ").Append(e.Box.X).Append(',').Append(e.Box.Y).Append(' ')
               .Append(e.Box.Width).Append('×').Append(e.Box.Height).Append("\">");
             if (src is null) sb.Append("<div class=\"placeholder\">image unavailable</div>");
-            else sb.Append("<img src=\"").Append(E(src)).Append("\" alt=\"peak of ").Append(E(Path.GetFileName(e.Image))).Append("\">");
+            else sb.Append("<img src=\"").Append(E(src)).Append("\" alt=\"").Append(whole ? "" : "peak of ").Append(E(Path.GetFileName(e.Image))).Append("\">");
             sb.Append("<figcaption><span class=\"lbl\">").Append(E(e.Label)).Append("</span> · ").Append(e.Value is null ? Dash : E(e.Value))
               .Append("<br><span class=\"muted\">").Append(Num(e.Score)).Append("</span></figcaption></figure>");
         }

@@ -117,7 +117,7 @@ public static partial class HtmlReport
             sb.Append("<p class=\"muted\">None.</p>\n");
             return;
         }
-        sb.Append("<table><thead><tr><th class=\"num\">Row</th><th>File</th><th>Reason</th></tr></thead><tbody>\n");
+        sb.Append("<table class=\"compact\"><thead><tr><th class=\"num\">Row</th><th>File</th><th>Reason</th></tr></thead><tbody>\n");
         foreach (var p in rows.Take(MaxProblems))
         {
             sb.Append("<tr><td class=\"num\">").Append(p.Row is { } n ? Int(n) : Dash).Append("</td><td class=\"mono\">").Append(E(p.File))

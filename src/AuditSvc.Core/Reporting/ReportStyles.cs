@@ -36,9 +36,11 @@ table { border-collapse: collapse; width: 100%; margin: 4px 0 8px; }
 th, td { text-align: left; padding: 6px 8px; border-bottom: 1px solid var(--line); vertical-align: top; }
 th { font-size: 12px; color: var(--muted); font-weight: 600; background: var(--soft); }
 td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+table.compact td { padding: 2px 8px; font-size: 12.5px; }
 table.inner { margin: 0; font-size: 12.5px; }
 table.inner th { background: none; padding: 2px 6px; }
 table.inner td { padding: 2px 6px; border-bottom: 1px dotted var(--line); }
+table.inner td:first-child { white-space: nowrap; }
 .tag { display: inline-block; padding: 0 6px; border-radius: 3px; background: #eef1f4; border: 1px solid var(--line); font-size: 12px; }
 .tag.warn { background: var(--warn-bg); color: var(--warn); border-color: #f0d58c; }
 .pill { display: inline-block; padding: 1px 10px; border-radius: 10px; font-weight: 700; font-size: 12px; text-transform: uppercase; }
@@ -72,6 +74,9 @@ table.inner td { padding: 2px 6px; border-bottom: 1px dotted var(--line); }
   border: 1px solid var(--line); background: #fafafa; }
 .placeholder { display: flex; align-items: center; justify-content: center; text-align: center; font-size: 11px; color: var(--muted);
   background: repeating-linear-gradient(45deg, #f4f4f4, #f4f4f4 6px, #eaeaea 6px, #eaeaea 12px); }
+.exemplars.whole { grid-template-columns: repeat(3, 136px); }
+.exemplars.whole figure { width: 136px; }
+.exemplars.whole img, .exemplars.whole .placeholder { width: 128px; height: 128px; image-rendering: auto; }
 .exemplars figcaption { font-size: 11px; line-height: 1.3; margin-top: 2px; overflow: hidden; text-overflow: ellipsis; white-space: nowrap; }
 .side { min-width: 240px; max-width: 360px; }
 .peakmap { display: grid; grid-template-columns: repeat(3, 28px); grid-template-rows: repeat(3, 28px); gap: 2px; }
