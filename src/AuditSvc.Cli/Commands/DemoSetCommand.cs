@@ -10,16 +10,24 @@ internal static class DemoSetCommand
     {
         var outOpt = new Option<DirectoryInfo>("--out") { Description = "Folder to write images and manifest.csv into", Required = true };
         var countOpt = new Option<int>("--count") { Description = "Number of images", DefaultValueFactory = _ => 2000 };
-        var agreementOpt = new Option<double>("--cue-agreement") { Description = "Share of images whose line (overlay, belt) follows the label (0.5 = independent)", DefaultValueFactory = _ => 0.9 };
-        var seedOpt = new Option<int>("--seed") { Description = "Random seed (the set is deterministic for a seed)", DefaultValueFactory = _ => 7 };
-        var cmd = new Command("demo-set", "Write the invented demo image set (fruit on two packing lines) with its manifest.csv")
+        var agreementOpt = new Option<double>("--cue-agreement")
         {
-            outOpt, countOpt, agreementOpt, seedOpt,
+            Description = "P(stamp | mouldy) and P(blue belt | spotted); the other classes get (1-A)/2 (0.3333 = independent of the label)",
+            DefaultValueFactory = _ => 0.9,
+        };
+        var seedOpt = new Option<int>("--seed") { Description = "Random seed (image i depends only on seed and i)", DefaultValueFactory = _ => 7 };
+        // Counterfactual twins: the same images with one cue forced or inverted, every other pixel unchanged.
+        var stampOpt = new Option<CueOverride>("--stamp") { Description = "auto, on, off or flip the corner stamp", DefaultValueFactory = _ => CueOverride.Auto };
+        var beltOpt = new Option<CueOverride>("--belt") { Description = "auto, on (blue), off (grey) or flip the belt colour", DefaultValueFactory = _ => CueOverride.Auto };
+        var cmd = new Command("demo-set", "Write the invented demo image set (lemons on packing lines) with its manifest.csv")
+        {
+            outOpt, countOpt, agreementOpt, seedOpt, stampOpt, beltOpt,
         };
         cmd.SetAction(parse =>
         {
             var dir = parse.GetValue(outOpt)!;
-            var options = new DemoSetOptions(parse.GetValue(countOpt), parse.GetValue(agreementOpt), parse.GetValue(seedOpt));
+            var options = new DemoSetOptions(parse.GetValue(countOpt), parse.GetValue(agreementOpt), parse.GetValue(seedOpt),
+                parse.GetValue(stampOpt), parse.GetValue(beltOpt));
             var manifest = DemoSetGenerator.Write(dir.FullName, options);
             Console.WriteLine($"wrote {options.Count} images; manifest: {manifest}");
             return 0;

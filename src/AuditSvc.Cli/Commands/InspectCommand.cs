@@ -1,13 +1,131 @@
 using System.CommandLine;
+using System.Globalization;
+using System.Text.Json;
+using AuditSvc.Compute.Models;
+using AuditSvc.Core;
+using AuditSvc.Core.Models;
 
 namespace AuditSvc.Cli.Commands;
 
+/// <summary>`inspect`: the model's input, recipe, batch mode and readable layers with receptive fields.</summary>
 internal static class InspectCommand
 {
+    private static readonly JsonSerializerOptions Json = new()
+    {
+        WriteIndented = true,
+        PropertyNamingPolicy = JsonNamingPolicy.SnakeCaseLower,
+    };
+
     public static Command Create()
     {
-        var cmd = new Command("inspect", "inspect (not yet built)");
-        cmd.SetAction(_ => 0);
+        var modelOpt = new Option<string>("--model") { Description = "ONNX model file", Required = true };
+        var layersOpt = new Option<string?>("--layers") { Description = "Comma-separated tensor names to read instead of the defaults" };
+        var sizeOpt = new Option<string?>("--size") { Description = "Input size, N or WxH (needed when the model's input size is symbolic)" };
+        var jsonOpt = new Option<bool>("--json") { Description = "Print JSON instead of text" };
+        var cmd = new Command("inspect", "Show a model's input, recipe, batch mode and layers with receptive fields")
+        {
+            modelOpt, layersOpt, sizeOpt, jsonOpt,
+        };
+        cmd.SetAction(parse =>
+        {
+            try
+            {
+                return Run(parse, modelOpt, layersOpt, sizeOpt, jsonOpt);
+            }
+            catch (AuditInputException e)
+            {
+                // System.CommandLine's default handler would report this as a crash with status 1.
+                Console.Error.WriteLine($"error: {e.Message}");
+                return ExitCodes.BadInput;
+            }
+        });
         return cmd;
     }
+
+    private static int Run(ParseResult parse, Option<string> modelOpt, Option<string?> layersOpt, Option<string?> sizeOpt, Option<bool> jsonOpt)
+    {
+        var (width, height) = ParseSize(parse.GetValue(sizeOpt));
+        var layers = parse.GetValue(layersOpt)?.Split(',', StringSplitOptions.RemoveEmptyEntries | StringSplitOptions.TrimEntries);
+        var options = new ModelLoadOptions(layers, new RecipeOverrides(Width: width, Height: height));
+        var plan = ModelIntake.Load(parse.GetValue(modelOpt)!, options).Plan;
+        Console.Out.Write(parse.GetValue(jsonOpt) ? ToJson(plan) : ToText(plan));
+        return ExitCodes.Pass;
+    }
+
+    internal static (int? Width, int? Height) ParseSize(string? text)
+    {
+        if (string.IsNullOrWhiteSpace(text)) return (null, null);
+        var parts = text.Split('x', 'X');
+        if (parts.Length is 1 or 2 && parts.All(p => int.TryParse(p, NumberStyles.None, CultureInfo.InvariantCulture, out int v) && v > 0))
+        {
+            int w = int.Parse(parts[0], CultureInfo.InvariantCulture);
+            return (w, parts.Length == 2 ? int.Parse(parts[1], CultureInfo.InvariantCulture) : w);
+        }
+        throw new AuditInputException("--size", $"'{text}' is not a size; give N or WxH, e.g. 224 or 320x240");
+    }
+
+    private static string F(double v) => v.ToString("0.##", CultureInfo.InvariantCulture);
+    private static string Fs(float[] v) => string.Join(", ", v.Select(x => x.ToString("0.###", CultureInfo.InvariantCulture)));
+
+    private static string Field(RfAxis y, RfAxis x) => y == x
+        ? $"{F(x.Size)} / {F(x.Jump)} / {F(x.Offset)}"
+        : $"{F(y.Size)}x{F(x.Size)} / {F(y.Jump)}x{F(x.Jump)} / {F(y.Offset)}x{F(x.Offset)}";
+
+    internal static string ToText(ModelPlan plan)
+    {
+        var r = plan.Recipe;
+        var w = new StringWriter(CultureInfo.InvariantCulture);
+        w.WriteLine($"model    {plan.ModelPath}");
+        w.WriteLine($"sha256   {plan.Sha256}");
+        w.WriteLine($"input    {plan.InputName}: {r.Width}x{r.Height}, {r.Mean.Length} channel(s)");
+        w.WriteLine($"recipe   resize {Name(r.Resize)}, pixels 0..{F(r.PixelScale)}, mean [{Fs(r.Mean)}], std [{Fs(r.Std)}], {r.Order.ToString().ToUpperInvariant()}");
+        w.WriteLine($"output   {plan.OutputName}: {plan.ClassCount} classes{(plan.OutputIsProbabilities ? " (probabilities)" : " (logits)")}" +
+            (plan.Recipe.ClassNames is null ? "" : $": {string.Join(", ", plan.ClassNames)}"));
+        w.WriteLine($"batch    {(plan.Batch == BatchMode.Batched ? "batched" : "concurrent batch-1 runs")}");
+        w.WriteLine();
+        var rows = plan.Layers.Select(l => new[]
+        {
+            plan.ReadLayers.Any(x => x.Name == l.Name) ? "*" : "",
+            l.Name, l.OpType,
+            l.Rank == 4 ? $"{l.Channels}x{l.Height}x{l.Width}" : $"{l.Channels}",
+            Field(l.Field.Y, l.Field.X),
+            l.IsDefault ? "default" : "",
+        }).ToList();
+        rows.Insert(0, ["read", "layer", "op", "CxHxW", "field size / jump / offset", "default"]);
+        int[] widths = Enumerable.Range(0, 6).Select(c => rows.Max(row => row[c].Length)).ToArray();
+        foreach (var row in rows)
+            w.WriteLine(string.Join("  ", row.Select((cell, c) => cell.PadRight(widths[c]))).TrimEnd());
+        return w.ToString();
+    }
+
+    private static string Name(ResizeMode m) => m == ResizeMode.Stretch ? "stretch" : "shorter-side-center-crop";
+
+    internal static string ToJson(ModelPlan plan)
+    {
+        var r = plan.Recipe;
+        var read = plan.ReadLayers.Select(l => l.Name).ToHashSet(StringComparer.Ordinal);
+        var doc = new
+        {
+            Model = plan.ModelPath,
+            plan.Sha256,
+            Input = new { Name = plan.InputName, r.Width, r.Height, Channels = r.Mean.Length },
+            Recipe = new
+            {
+                r.Width, r.Height, Resize = Name(r.Resize), r.PixelScale, r.Mean, r.Std,
+                ChannelOrder = r.Order.ToString().ToLowerInvariant(), r.ClassNames,
+            },
+            Output = new { Name = plan.OutputName, plan.ClassCount, plan.OutputIsProbabilities },
+            Batch = plan.Batch == BatchMode.Batched ? "batched" : "concurrent-single",
+            Layers = plan.Layers.Select(l => new
+            {
+                l.Name, Op = l.OpType, l.Rank, l.Channels, l.Height, l.Width,
+                Field = new { Y = Axis(l.Field.Y), X = Axis(l.Field.X) },
+                l.IsDefault, Read = read.Contains(l.Name),
+            }),
+            ReadLayers = plan.ReadLayers.Select(l => l.Name),
+        };
+        return JsonSerializer.Serialize(doc, Json) + Environment.NewLine;
+    }
+
+    private static object Axis(RfAxis a) => new { a.Size, a.Jump, a.Offset };
 }

@@ -19,7 +19,12 @@ public static class OrtRunner
         byte[] model, string inputName, FloatTensor input, IReadOnlyList<string>? outputNames = null,
         GraphOptimizationLevel level = GraphOptimizationLevel.ORT_DISABLE_ALL)
     {
-        using var options = new SessionOptions { GraphOptimizationLevel = level, IntraOpNumThreads = 1, InterOpNumThreads = 1 };
+        // Failures surface as exceptions the caller handles (the batch check expects some); keep ORT's log quiet.
+        using var options = new SessionOptions
+        {
+            GraphOptimizationLevel = level, IntraOpNumThreads = 1, InterOpNumThreads = 1,
+            LogSeverityLevel = OrtLoggingLevel.ORT_LOGGING_LEVEL_FATAL,
+        };
         using var session = new InferenceSession(model, options);
         var names = outputNames ?? session.OutputNames;
         using var value = OrtValue.CreateTensorValueFromMemory(input.Data, input.Shape);

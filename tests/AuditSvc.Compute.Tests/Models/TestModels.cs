@@ -31,11 +31,11 @@ internal static class TestModels
         int cin = 3;
         foreach (int convs in new[] { 2, 2, 3, 3, 3 })
         {
-            for (int i = 0; i < convs; i++) { x = g.Relu(g.Conv(x, cin, 4, 3, 1, 1)); cin = 4; }
+            for (int i = 0; i < convs; i++) { x = g.Relu(g.Conv(x, cin, 8, 3, 1, 1)); cin = 8; }
             x = g.MaxPool(x, 2, 2);
         }
         pool5 = x;
-        Head(g, x, 4);
+        Head(g, x, 8);
         return g;
     }
 
