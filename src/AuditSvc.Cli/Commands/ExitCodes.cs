@@ -22,7 +22,8 @@ internal static class ExitCodes
         }
         try
         {
-            return await parse.InvokeAsync();
+            // Without this, System.CommandLine catches exceptions itself and exits 1, which reads as "block".
+            return await parse.InvokeAsync(new InvocationConfiguration { EnableDefaultExceptionHandler = false });
         }
         catch (AuditInputException e)
         {
