@@ -4,6 +4,7 @@ using AuditSvc.Api.Hosting;
 using Hangfire;
 using Hangfire.Dashboard;
 using Hangfire.PostgreSql;
+using Hangfire.PostgreSql.Factories;
 using Microsoft.AspNetCore.Authentication;
 using Microsoft.AspNetCore.Builder;
 using Microsoft.Extensions.DependencyInjection;
@@ -25,20 +26,29 @@ public static partial class JobServiceExtensions
         services.TryAddSingleton<IAuditEngine, ComputeEngine>();
         services.AddSingleton<AuditInputsLoader>();
         services.AddTransient<AuditJobs>();
+        // The storage is this host's own singleton rather than Hangfire's process-wide JobStorage.Current, so
+        // two hosts in one process (the tests; an API with a separate worker host) never cross databases.
+        var storageOptions = new PostgreSqlStorageOptions
+        {
+            SchemaName = "hangfire",
+            PrepareSchemaIfNecessary = true,
+            // A long chunk stays invisible while it runs (sliding), and a dead worker's job comes back
+            // after one lease; the chunk's own lease in audit_chunks guards the same thing in our tables.
+            UseSlidingInvisibilityTimeout = true,
+            InvisibilityTimeout = settings.Lease,
+            QueuePollInterval = TimeSpan.FromSeconds(1),
+        };
+        services.AddSingleton<JobStorage>(_ => new PostgreSqlStorage(
+            new NpgsqlConnectionFactory(settings.ConnectionString, storageOptions), storageOptions));
+        // Likewise the activator: Hangfire's default hands out the process-wide JobActivator.Current, which would
+        // build jobs from whichever host configured Hangfire last.
+        services.AddSingleton<JobActivator>(sp => new Hangfire.AspNetCore.AspNetCoreJobActivator(sp.GetRequiredService<IServiceScopeFactory>()));
         services.AddHangfire(cfg => cfg
             .SetDataCompatibilityLevel(CompatibilityLevel.Version_180)
             .UseSimpleAssemblyNameTypeSerializer()
             .UseRecommendedSerializerSettings()
-            .UsePostgreSqlStorage(o => o.UseNpgsqlConnection(settings.ConnectionString), new PostgreSqlStorageOptions
-            {
-                SchemaName = "hangfire",
-                PrepareSchemaIfNecessary = true,
-                // A long chunk stays invisible while it runs (sliding), and a dead worker's job comes back
-                // after one lease; the chunk's own lease in audit_chunks guards the same thing in our tables.
-                UseSlidingInvisibilityTimeout = true,
-                InvisibilityTimeout = settings.Lease,
-                QueuePollInterval = TimeSpan.FromSeconds(1),
-            }));
+            .UseLogProvider(HangfireLogBridge.Instance));
+        services.AddHostedService<HangfireLogBridge.Attach>();
         if (runServer && settings.Workers > 0)
         {
             services.AddHangfireServer(o =>

@@ -55,4 +55,22 @@ public sealed class AuditJobsTests
         cmd.Parameters.Add(new Npgsql.NpgsqlParameter { Value = id });
         Assert.Equal(1L, await cmd.ExecuteScalarAsync()); // the chunk the dead worker held, taken again after its lease ran out
     }
+
+    [PgFact]
+    public async Task TwoHostsInOneProcess_OnTheirOwnDatabases_EachFinishItsOwnAudit()
+    {
+        // Hangfire keeps storage, activator and logging process-wide by default; each host must use its own.
+        await using var first = await ServiceUnderTest.StartAsync(workers: 1);
+        await using var second = await ServiceUnderTest.StartAsync(workers: 1);
+        using var a = await first.ClientAsync("team-a");
+        using var b = await second.ClientAsync("team-b");
+        var idA = await AuditEndpointsTests.SubmitAsync(a, await Uploads.ModelAsync(a), await Uploads.ImageSetAsync(a, 3), 2);
+        var idB = await AuditEndpointsTests.SubmitAsync(b, await Uploads.ModelAsync(b), await Uploads.ImageSetAsync(b, 4), 2);
+
+        var endA = await first.WaitForEndAsync(a, idA);
+        var endB = await second.WaitForEndAsync(b, idB);
+
+        Assert.Equal(("done", 6), (endA.State, endA.Progress.ItemsDone));
+        Assert.Equal(("done", 8), (endB.State, endB.Progress.ItemsDone));
+    }
 }
