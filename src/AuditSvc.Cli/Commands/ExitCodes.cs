@@ -22,7 +22,7 @@ internal static class ExitCodes
         }
         try
         {
-            return await parse.InvokeAsync();
+            return await parse.InvokeAsync(new InvocationConfiguration { EnableDefaultExceptionHandler = false });
         }
         catch (AuditInputException e)
         {
