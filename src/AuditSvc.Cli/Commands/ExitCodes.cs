@@ -29,5 +29,16 @@ internal static class ExitCodes
             Console.Error.WriteLine($"error: {e.Message}");
             return BadInput;
         }
+        catch (OperationCanceledException)
+        {
+            Console.Error.WriteLine("cancelled");
+            return Internal;
+        }
+        catch (Exception e) when (e is not OutOfMemoryException)
+        {
+            // Anything else is a bug in AuditSvc, not in the input: say so, keep the trace for the report.
+            Console.Error.WriteLine($"internal error (a bug in auditsvc, please report it with this text): {e}");
+            return Internal;
+        }
     }
 }

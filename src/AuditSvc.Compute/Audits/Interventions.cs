@@ -26,6 +26,7 @@ public static class Interventions
 
     private const int UnitsPerCue = 3;
     private const int DonorsPerCue = 24;
+    private const int MinMisled = 5;
 
     public static Rgb24 MeanColour(ItemTable table, ImageRuns runs, int sample = 100)
     {
@@ -58,11 +59,14 @@ public static class Interventions
             if (local.Count == 0) continue;
             int value = local[0].Value;
             int cue = link.FavouredLabel[value];
-            var units = local.Where(f => f.Value == value).Take(UnitsPerCue).ToList();
+            // The deepest local units see the whole cue; a first-layer unit sees a few pixels of it.
+            var units = local.Where(f => f.Value == value)
+                .OrderByDescending(f => BoxShare(Regions.PeakBox(f.Layer.Layer, f.Top[0], h, w), h, w))
+                .ThenByDescending(f => f.Test.Auroc).Take(UnitsPerCue).ToList();
             var donors = Donors(table, units, link.Attribute, value, h, w);
             if (donors.Count == 0) continue;
             int before = runs.Runs;
-            var occlusion = Occlude(runs, table, act, donors, cue, mean, units[0], policy.InterventionBudget / 5);
+            var occlusion = Occlude(runs, table, plan, act, link.Attribute, value, cue, mean, units[0], policy.InterventionBudget / 5);
             var transplant = Transplant(runs, table, act, donors, link.Attribute, value, cue, policy.InterventionBudget * 2 / 5);
             results.Add(new CueIntervention(link.Attribute, value, cue, occlusion, transplant, runs.Runs - before));
         }
@@ -89,34 +93,47 @@ public static class Interventions
         return donors;
     }
 
-    private static Measure? Occlude(ImageRuns runs, ItemTable table, ActivationResult act, List<(int Item, Box Box)> donors, int cue, Rgb24 mean, FindingCore unit, int budget)
+    /// <summary>
+    /// Occlusion where the cue misleads: images with the cue, of another label, predicted as the cue's class. Their
+    /// box at the cue's usual place (the strongest unit's modal peak) is filled with the set's mean colour; the rate
+    /// is the share whose prediction leaves the cue's class. With fewer than <see cref="MinMisled"/> such images it
+    /// falls back to every image with the cue predicted as the cue's class, and says so.
+    /// </summary>
+    private static Measure? Occlude(ImageRuns runs, ItemTable table, ModelPlan plan, ActivationResult act, int attribute, int value, int cue, Rgb24 mean, FindingCore unit, int budget)
     {
-        var chosen = donors.Where(d => act.Predicted[d.Item] == cue).Take(Math.Max(1, budget)).ToList();
+        var (my, mx, _) = PlaceCandidates.ModalPlace(unit.Top);
+        var box = unit.Layer.Layer.Field.BoxAt(my, mx, plan.Recipe.Height, plan.Recipe.Width);
+        bool Carries(ImageItem i) => act.Scored[i.Index] && i.AttributeValues[attribute] == value && act.Predicted[i.Index] == cue;
+        var misled = table.Items.Where(i => Carries(i) && i.Label != cue).Select(i => i.Index).ToList();
+        bool fallback = misled.Count < MinMisled;
+        var chosen = (fallback ? table.Items.Where(Carries).Select(i => i.Index).ToList() : misled).Take(Math.Max(1, budget)).ToList();
         if (chosen.Count == 0) return null;
         var edited = new List<Image<Rgb24>>();
-        var kept = new List<(int Item, Box Box)>();
-        foreach (var d in chosen)
+        var kept = new List<int>();
+        foreach (var item in chosen)
         {
-            var img = runs.Fitted(table.Items[d.Item].Path, d.Item)?.Clone();
+            var img = runs.Fitted(table.Items[item].Path, item)?.Clone();
             if (img is null) continue;
-            ImageRuns.Fill(img, d.Box, mean);
+            ImageRuns.Fill(img, box, mean);
             edited.Add(img);
-            kept.Add(d);
+            kept.Add(item);
         }
         if (edited.Count == 0) return null;
         var (pred, scores) = runs.Run(edited, (unit.Layer, unit.Channel));
         foreach (var img in edited) img.Dispose();
-        int left = pred.Count(p => p != cue);
+        int left = pred.Count(p => p != cue), restored = kept.Where((item, i) => pred[i] == table.Items[item].Label).Count();
+        var before = new float[table.Items.Count];
+        act.Scores.ReadUnits(unit.Unit, 1, before);
         double fall = 0;
         int fallN = 0;
         for (int i = 0; i < kept.Count; i++)
-        {
-            var peak = unit.Top.FirstOrDefault(t => t.Item == kept[i].Item);
-            if (peak.Score > 0) { fall += 1 - scores[i] / peak.Score; fallN++; }
-        }
+            if (before[kept[i]] > 0) { fall += 1 - scores[i] / before[kept[i]]; fallN++; }
         var (lo, hi) = WilsonInterval.Compute(left, edited.Count);
+        var who = fallback
+            ? "images with the cue predicted as the cue's class (too few of other labels to test on)"
+            : "images of other labels that carry the cue and are predicted as the cue's class";
         return new Measure("occlusion", left / (double)edited.Count, edited.Count, lo, hi, null,
-            $"peak boxes of exemplars predicted as the cue's class filled with the set's mean colour; share that left it" +
+            $"box ({box.X},{box.Y},{box.Width}×{box.Height}) filled with the set's mean colour on {who}; {left}/{edited.Count} left the cue's class, {restored} to their own label" +
             (fallN > 0 ? $"; unit {unit.Layer.Layer.Name}#{unit.Channel} score fell by {fall / fallN:P0} on average" : ""));
     }
 
@@ -142,7 +159,7 @@ public static class Interventions
         float median = valid[valid.Length / 2];
         var rng = new Random(20261203);
         var recipients = table.Items
-            .Where(i => act.Scored[i.Index] && i.Label != c.CueClass && act.Predicted[i.Index] != c.CueClass && scores[i.Index] < median)
+            .Where(i => act.Scored[i.Index] && i.Label != c.CueClass && act.Predicted[i.Index] != c.CueClass && scores[i.Index] <= median && !c.Top.Any(t => t.Item == i.Index))
             .Select(i => i.Index).OrderBy(_ => rng.Next()).Take(Math.Max(2, budget / 2)).ToList();
         var donors = c.Top.Take(DonorsPerCue).Select(p => (p.Item, Regions.PeakBox(c.Layer.Layer, p, plan.Recipe.Height, plan.Recipe.Width))).ToList();
         return TransplantInto(runs, table, donors, recipients, c.CueClass);

@@ -56,7 +56,8 @@ public static class AuditAssembler
             attributes.Add(new AttributeReport(name, Round(link.CramersV), link.Confounded, x.Policy.IsAllowed(name), leakage, x.Policy.ThresholdFor(name),
                 attrVerdict, measures, tests, findings, note));
         }
-        foreach (var c in x.Candidates.Where(c => c.ExplainedBy is null && c.Transplant is not null))
+        // Unexplained candidates join the verdict when moving their patch measurably moves decisions.
+        foreach (var c in x.Candidates.Where(c => c.ExplainedBy is null && c.Transplant is { Low: > 0 }))
         {
             var name = "place:" + c.Region;
             if (attributes.Any(a => a.Name == name)) continue;
