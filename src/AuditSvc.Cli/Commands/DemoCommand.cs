@@ -12,7 +12,7 @@ namespace AuditSvc.Cli.Commands;
 /// `demo`: makes the invented demo image set, audits the bundled cue-trained demo model (or the control model),
 /// writes audit.json and report.html, prints the verdict and where the report is. Needs no trainer.
 /// </summary>
-internal static class DemoCommand
+public static class DemoCommand
 {
     public const int DefaultCount = 3000;
 
@@ -21,7 +21,7 @@ internal static class DemoCommand
 
     public const int DemoSeed = 20261202;
 
-    public static Command Create()
+    internal static Command Create()
     {
         var output = new Option<DirectoryInfo>("--out") { Description = "Folder for the demo set, audit.json and report.html", DefaultValueFactory = _ => new DirectoryInfo("demo-out") };
         var count = new Option<int>("--count") { Description = "Images in the demo set", DefaultValueFactory = _ => DefaultCount };
