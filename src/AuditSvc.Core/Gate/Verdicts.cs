@@ -36,7 +36,7 @@ public static class Verdicts
         {
             bool block = policy.Confounded == ConfoundedAction.Block;
             reasons.Add(new VerdictReason(block ? "confounded" : "warning", e.Name, "cramers_v", null, policy.ConfoundedV,
-                $"{e.Name} nearly determines the label, so the audit cannot tell whether the model uses it or the object; collect images where {e.Name} and the label disagree (policy: confounded = {(block ? "block" : "warn")})"));
+                $"{e.Name} nearly determines the label, so the audit cannot tell whether the model uses it or the object; collect counter-examples (images where {e.Name} and the label disagree) (policy: confounded = {(block ? "block" : "warn")})"));
             return (block ? Block : Pass, block ? Block : "warn", leakage, reasons);
         }
         return (Pass, Pass, leakage, reasons);
