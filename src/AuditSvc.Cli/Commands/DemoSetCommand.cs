@@ -28,9 +28,18 @@ internal static class DemoSetCommand
             var dir = parse.GetValue(outOpt)!;
             var options = new DemoSetOptions(parse.GetValue(countOpt), parse.GetValue(agreementOpt), parse.GetValue(seedOpt),
                 parse.GetValue(stampOpt), parse.GetValue(beltOpt));
-            var manifest = DemoSetGenerator.Write(dir.FullName, options);
-            Console.WriteLine($"wrote {options.Count} images; manifest: {manifest}");
-            return 0;
+            try
+            {
+                var manifest = DemoSetGenerator.Write(dir.FullName, options);
+                Console.WriteLine($"wrote {options.Count} images; manifest: {manifest}");
+                return ExitCodes.Pass;
+            }
+            catch (AuditSvc.Core.AuditInputException e)
+            {
+                // System.CommandLine's own exception handler would turn this into exit 1 (block) with a stack trace.
+                Console.Error.WriteLine($"error: {e.Message}");
+                return ExitCodes.BadInput;
+            }
         });
         return cmd;
     }

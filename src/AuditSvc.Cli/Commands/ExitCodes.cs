@@ -22,13 +22,23 @@ internal static class ExitCodes
         }
         try
         {
-            // Without this, System.CommandLine catches exceptions itself and exits 1, which reads as "block".
             return await parse.InvokeAsync(new InvocationConfiguration { EnableDefaultExceptionHandler = false });
         }
         catch (AuditInputException e)
         {
             Console.Error.WriteLine($"error: {e.Message}");
             return BadInput;
+        }
+        catch (OperationCanceledException)
+        {
+            Console.Error.WriteLine("cancelled");
+            return Internal;
+        }
+        catch (Exception e) when (e is not OutOfMemoryException)
+        {
+            // Anything else is a bug in AuditSvc, not in the input: say so, keep the trace for the report.
+            Console.Error.WriteLine($"internal error (a bug in auditsvc, please report it with this text): {e}");
+            return Internal;
         }
     }
 }

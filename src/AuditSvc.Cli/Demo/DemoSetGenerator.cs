@@ -61,12 +61,12 @@ public static class DemoSetGenerator
         var stamp = uStamp < (label == 2 ? a : (1 - a) / 2);
         var blue = uBelt < (label == 1 ? a : (1 - a) / 2);
 
-        // Percent of the face showing defects; spotted and mouldy overlap on 5–14%.
+        // Percent of the face showing defects; spotted (2–9%) and mouldy (3–10%) overlap on 3–9%.
         var area = label switch
         {
             0 => 1.0 * uArea,
-            1 => 3 + 11 * uArea,
-            _ => 5 + 11 * uArea,
+            1 => 2 + 7 * uArea,
+            _ => 3 + 7 * uArea,
         };
         return new DemoItem(index, DemoItem.Labels[label], Apply(options.Stamp, stamp), Apply(options.Belt, blue), camera,
             Math.Round(area, 2));

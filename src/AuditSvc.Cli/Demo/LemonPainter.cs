@@ -9,6 +9,9 @@ internal static class LemonPainter
     public const int Size = 64;
 
     // Stamp strip: 16×7 px in the bottom-right corner, four 3×5 digits on a dark ground.
+    // Peak opacity of mould fuzz: the tuning knob that keeps the mouldy class feature modest.
+    private const float MouldOpacity = 0.55f;
+
     public const int StampX = 47, StampY = 56, StampW = 16, StampH = 7;
 
     // 3×5 digit glyphs, one row per string, '#' = lit.
@@ -117,7 +120,7 @@ internal static class LemonPainter
             {
                 "sound" => (0.6f, 0.9f),
                 "spotted" => (1.2f, 2.4f),
-                _ => (1.6f, 3.0f),
+                _ => (1.2f, 2.4f),
             };
             var radius = rMin + (rMax - rMin) * (float)rng.NextDouble();
             // A point inside the face, away from the rim.
@@ -145,12 +148,13 @@ internal static class LemonPainter
     private static void PaintMould(Canvas canvas, float px, float py, float radius, Random rng)
     {
         // Pale green-white fuzz: opacity falls off from the centre with a ragged, noisy edge.
+        // Kept faint on purpose (peak opacity MouldOpacity) so the class is real but less salient than the stamp.
         canvas.ForEllipse(px, py, radius + 1.2f, radius + 1.2f, 0, (x, y, u, v, _) =>
         {
             var d = MathF.Sqrt(u * u + v * v);
-            var alpha = (1.15f - d) * 1.4f + (float)(rng.NextDouble() - 0.5) * 0.5f;
+            var alpha = ((1.15f - d) * 1.4f + (float)(rng.NextDouble() - 0.5) * 0.5f) * MouldOpacity;
             var core = d < 0.45f;
-            canvas.Blend(x, y, core ? 196 : 226, core ? 222 : 236, core ? 176 : 214, Math.Clamp(alpha, 0, 0.95f));
+            canvas.Blend(x, y, core ? 196 : 226, core ? 222 : 236, core ? 176 : 214, Math.Clamp(alpha, 0, MouldOpacity));
         });
     }
 

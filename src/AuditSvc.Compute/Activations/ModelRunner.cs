@@ -11,6 +11,7 @@ namespace AuditSvc.Compute.Activations;
 public sealed class ModelRunner : IDisposable
 {
     private readonly InferenceSession _session;
+    private readonly RunOptions _runOptions = new();
     private readonly string[] _inputNames;
     private readonly string[] _outputNames;
 
@@ -43,9 +44,13 @@ public sealed class ModelRunner : IDisposable
         var shape = new long[] { count, Channels, Plan.Recipe.Height, Plan.Recipe.Width };
         using var value = OrtValue.CreateTensorValueFromMemory(OrtMemoryInfo.DefaultInstance, input[..(count * Channels * Plan.Recipe.Height * Plan.Recipe.Width)], shape);
         var names = readLayers ? _outputNames : _outputNames[..1];
-        using var outputs = _session.Run(null, _inputNames, [value], names);
+        using var outputs = _session.Run(_runOptions, _inputNames, [value], names);
         handle(outputs[0].GetTensorDataAsSpan<float>(), readLayers ? outputs.Skip(1).ToArray() : []);
     }
 
-    public void Dispose() => _session.Dispose();
+    public void Dispose()
+    {
+        _session.Dispose();
+        _runOptions.Dispose();
+    }
 }

@@ -50,7 +50,7 @@ public static class AssociationScan
             int count = Math.Min(UnitBlock, units - first);
             act.Scores.ReadUnits(first, count, buffer.AsSpan(0, count * n));
             Parallel.For(0, count, new ParallelOptions { CancellationToken = ct },
-                () => new Scratch(n, maxStratum, labels, table.Attributes.Max(c => c.Values.Count)),
+                () => new Scratch(n, maxStratum, labels, table.Attributes.Select(c => c.Values.Count).DefaultIfEmpty(1).Max()),
                 (k, _, s) =>
                 {
                     var scores = buffer.AsSpan(k * n, n);

@@ -1,0 +1,73 @@
+using AuditSvc.Compute.Activations;
+using AuditSvc.Compute.Audits;
+using AuditSvc.Core.Audits;
+using AuditSvc.Core.Reporting;
+
+namespace AuditSvc.Cli.Commands;
+
+/// <summary>Runs an audit with a progress line on stderr, writes audit.json and report.html, returns the exit status.</summary>
+internal static class AuditRunner
+{
+    public static int RunAndWrite(AuditRequest request, string outDir, CancellationToken ct)
+    {
+        Directory.CreateDirectory(outDir);
+        bool tty = !Console.IsErrorRedirected;
+        var progress = new Progress(tty);
+        var run = AuditPipeline.Run(request, progress, (stage, what) => progress.Stage(stage, what), ct);
+        progress.End();
+        var json = Path.Combine(outDir, "audit.json");
+        var html = Path.Combine(outDir, "report.html");
+        AuditJson.Write(json, run.Result);
+        var images = ExemplarImagesFor(run);
+        File.WriteAllText(html, HtmlReport.Render(run.Result, images));
+        TryDelete(request.WorkDirectory);
+        PrintSummary(run.Result, json, html);
+        return run.Result.Verdict == "pass" ? ExitCodes.Pass : ExitCodes.Block;
+    }
+
+    private static IExemplarImages ExemplarImagesFor(AuditRun run) =>
+        new Compute.Reporting.ExemplarImages(item => run.Table.Items[item].Path, run.Model.Plan.Recipe);
+
+    public static void PrintSummary(AuditResult r, string json, string html)
+    {
+        Console.WriteLine($"verdict: {r.Verdict}");
+        foreach (var reason in r.Reasons) Console.WriteLine($"  reason: {reason.Message}");
+        Console.WriteLine($"images: {r.Pass.Scored} of {r.ImageSet.RowsRead} rows audited ({r.ImageSet.Problems.Count} rows rejected at intake, {r.Pass.Problems.Count} failed in the pass), {r.Pass.ImagesPerSecond:0} images/s");
+        foreach (var a in r.Attributes.OrderByDescending(a => a.Leakage ?? -1))
+            Console.WriteLine($"  {a.Name,-16} leakage {(a.Leakage is { } l ? l.ToString("0.000", System.Globalization.CultureInfo.InvariantCulture) : "  n/a")}  {a.Verdict,-10} findings {a.Findings}{(a.Note is null ? "" : "  (" + a.Note + ")")}");
+        Console.WriteLine($"findings: {r.Findings.Count} units in {r.CueGroups.Count} cue groups; fixed-place candidates: {r.Candidates.Count}");
+        Console.WriteLine($"audit.json: {json}");
+        Console.WriteLine($"report:     {html}");
+    }
+
+    private static void TryDelete(string dir)
+    {
+        try { if (Directory.Exists(dir)) Directory.Delete(dir, recursive: true); } catch (IOException) { } catch (UnauthorizedAccessException) { }
+    }
+
+    private sealed class Progress(bool tty) : IProgress<PassProgress>
+    {
+        private DateTime _last = DateTime.MinValue;
+
+        public void Stage(AuditStage stage, string what)
+        {
+            End();
+            Console.Error.WriteLine($"[{stage.ToString().ToLowerInvariant()}] {what}");
+        }
+
+        public void Report(PassProgress p)
+        {
+            if (DateTime.UtcNow - _last < TimeSpan.FromSeconds(tty ? 0.2 : 5) && p.Done < p.Total) return;
+            _last = DateTime.UtcNow;
+            double eta = p.ImagesPerSecond > 0 ? (p.Total - p.Done) / p.ImagesPerSecond : 0;
+            var line = $"  {p.Done}/{p.Total} images, {p.ImagesPerSecond:0} images/s, {eta:0}s left";
+            if (tty) Console.Error.Write("\r" + line.PadRight(60)); else Console.Error.WriteLine(line);
+        }
+
+        public void End()
+        {
+            if (tty && _last != DateTime.MinValue) Console.Error.WriteLine();
+            _last = DateTime.MinValue;
+        }
+    }
+}

@@ -1,0 +1,84 @@
+using System.Diagnostics;
+using AuditSvc.Compute.Activations;
+using AuditSvc.Compute.ImageSets;
+using AuditSvc.Compute.Models;
+using AuditSvc.Core;
+using AuditSvc.Core.Activations;
+using AuditSvc.Core.Analysis;
+using AuditSvc.Core.Audits;
+using AuditSvc.Core.Gate;
+using AuditSvc.Core.ImageSets;
+
+namespace AuditSvc.Compute.Audits;
+
+/// <summary>What to audit and how.</summary>
+/// <param name="WorkDirectory">Scratch space: unpacked archives, spilled score blocks.</param>
+public sealed record AuditRequest(string ModelPath, string DataPath, ModelLoadOptions ModelOptions, AuditPolicy Policy, PassOptions Pass, string WorkDirectory);
+
+/// <summary>An audit's document together with what is needed to render its exemplars.</summary>
+public sealed record AuditRun(AuditResult Result, ItemTable Table, LoadedModel Model);
+
+/// <summary>Stage of a running audit, for progress lines and the service's state.</summary>
+public enum AuditStage { Intake, Pass, Analysis, Interventions, Done }
+
+/// <summary>
+/// The main job in-process: model intake, set intake, activation pass, analysis, interventions, verdict.
+/// The command line calls <see cref="Run"/>; the service runs the same steps as chunk jobs.
+/// </summary>
+public static class AuditPipeline
+{
+    public static AuditRun Run(AuditRequest request, IProgress<PassProgress>? progress = null, Action<AuditStage, string>? stage = null, CancellationToken ct = default)
+    {
+        stage?.Invoke(AuditStage.Intake, "reading the model and the image set");
+        var model = ModelIntake.Load(request.ModelPath, request.ModelOptions);
+        Directory.CreateDirectory(request.WorkDirectory);
+        var table = SetIntake.Read(request.DataPath, model.Plan.Recipe.ClassNames, request.WorkDirectory);
+        CheckLabels(table, model);
+        var passOptions = request.Pass with { SpillDirectory = request.Pass.SpillDirectory ?? Path.Combine(request.WorkDirectory, "scores") };
+        using var pass = new ActivationPass(model.Plan, model.RewrittenModel, passOptions);
+        stage?.Invoke(AuditStage.Pass, $"{table.Items.Count} images, {pass.Layers.Sum(l => l.Count)} units in {pass.Layers.Count} layers, batch {pass.Options.BatchSize}");
+        var clock = Stopwatch.StartNew();
+        var act = pass.Run(table, progress, ct);
+        double passSeconds = clock.Elapsed.TotalSeconds;
+        try
+        {
+            return new AuditRun(Finish(pass, table, model, act, request.Policy, passSeconds, stage, ct), table, model);
+        }
+        finally
+        {
+            (act.Scores as IDisposable)?.Dispose();
+        }
+    }
+
+    /// <summary>Analysis, interventions and verdict over a finished activation pass.</summary>
+    public static AuditResult Finish(ActivationPass pass, ItemTable table, LoadedModel model, ActivationResult act, AuditPolicy policy, double passSeconds,
+        Action<AuditStage, string>? stage = null, CancellationToken ct = default)
+    {
+        if (!act.Scored.Any(s => s))
+            throw new AuditInputException(table.Report.Source, $"no image could be pushed through the model ({act.Problems.Count} failed; first: {act.Problems.FirstOrDefault()?.File}: {act.Problems.FirstOrDefault()?.Reason})");
+        stage?.Invoke(AuditStage.Analysis, "rank tests of every unit against every attribute value");
+        var analysis = AuditAnalysis.Analyze(table, model.Plan, act, policy, ct);
+        stage?.Invoke(AuditStage.Interventions, $"{analysis.Findings.Count} findings; occlusion and transplant");
+        var clock = Stopwatch.StartNew();
+        using var runs = new ImageRuns(pass);
+        var interventions = Interventions.Run(runs, table, model.Plan, act, analysis, policy, ct);
+        var candidates = new List<PlaceCandidate>();
+        foreach (var c in PlaceCandidates.Find(table, model.Plan, act, analysis))
+        {
+            ct.ThrowIfCancellationRequested();
+            var measure = c.ExplainedBy is null ? Interventions.MeasurePlace(runs, table, model.Plan, act, c, policy.InterventionBudget) : null;
+            candidates.Add(new PlaceCandidate(c.Layer.Layer.Name, c.Channel, c.Region, Math.Round(c.PlaceShare, 4), c.LabelsCovered, measure,
+                c.Top.Take(AuditAnalysis.ShownExemplars).Select(p => AuditAssembler.ExemplarOf(table, model.Plan, c.Layer.Layer, p, -1)).ToList(), c.ExplainedBy));
+        }
+        var inputs = new AuditInputs(table, model.Plan, act, analysis, interventions, candidates, policy, passSeconds, clock.Elapsed.TotalSeconds, runs.Runs,
+            pass.Options.BatchSize, DateTimeOffset.UtcNow);
+        stage?.Invoke(AuditStage.Done, "verdict");
+        return AuditAssembler.Build(inputs);
+    }
+
+    private static void CheckLabels(ItemTable table, LoadedModel model)
+    {
+        if (table.Labels.Count > model.Plan.ClassCount)
+            throw new AuditInputException("label", $"the image set has {table.Labels.Count} labels but the model has {model.Plan.ClassCount} outputs; give --labels in output order");
+    }
+}

@@ -1,0 +1,110 @@
+using System.Text.Json.Nodes;
+using Json.Schema;
+
+namespace AuditSvc.Cli.Tests.Audits;
+
+/// <summary>
+/// End to end on the invented demo: the cue-trained model must be blocked with the planted cues on top, the
+/// control model must pass, and the independent attribute must show no leakage. Thresholds here are the
+/// product's defaults, not tuned to these numbers (see seed-demo/README.md for the models' measured reliance).
+/// </summary>
+[Collection(nameof(DemoAudits))]
+public class DemoAuditTests(DemoAuditFixture demo)
+{
+    private static JsonObject Attribute(JsonNode audit, string name) =>
+        audit["attributes"]!.AsArray().Single(a => (string)a!["name"]! == name)!.AsObject();
+
+    private static double Leakage(JsonNode audit, string name) => (double?)Attribute(audit, name)["leakage"] ?? 0;
+
+    private static double Measure(JsonNode audit, string attribute, string measure) =>
+        (double)Attribute(audit, attribute)["measures"]!.AsArray().Single(m => (string)m!["name"]! == measure)!["value"]!;
+
+    [Fact]
+    public void Audit_CueTrainedModel_IsBlockedWithExitStatus1()
+    {
+        Assert.Equal(1, demo.Cue.Status);
+        Assert.Equal("block", (string)demo.Cue.Json["verdict"]!);
+        Assert.Contains("verdict: block", demo.Cue.Out);
+    }
+
+    [Fact]
+    public void Audit_CueTrainedModel_PlantedCuesAreTheTopAttributes()
+    {
+        var ranked = demo.Cue.Json["attributes"]!.AsArray().OrderByDescending(a => (double?)a!["leakage"] ?? 0).Select(a => (string)a!["name"]!).Take(2);
+        Assert.Equal(["belt", "stamp"], ranked.Order());
+        Assert.Equal("block", (string)Attribute(demo.Cue.Json, "stamp")["verdict"]!);
+        Assert.Equal("block", (string)Attribute(demo.Cue.Json, "belt")["verdict"]!);
+    }
+
+    [Fact]
+    public void Audit_CueTrainedModel_StampFindingsSitBottomRight()
+    {
+        var stamp = demo.Cue.Json["findings"]!.AsArray().Where(f => (string)f!["attribute"]! == "stamp" && (string)f["value"]! == "yes").ToList();
+        Assert.NotEmpty(stamp);
+        var spatial = stamp.Where(f => (string)f!["region"]! != "whole-image").ToList();
+        int bottomRight = spatial.Count(f => (string)f!["region"]! == "bottom-right");
+        Assert.True(bottomRight > spatial.Count / 2, $"{bottomRight} of {spatial.Count} spatial stamp findings at bottom-right");
+        var group = demo.Cue.Json["cue_groups"]!.AsArray().Single(g => (string)g!["attribute"]! == "stamp" && (string)g["value"]! == "yes");
+        Assert.Equal("bottom-right", (string)group!["region"]!);
+    }
+
+    [Fact]
+    public void Audit_IndependentAttribute_HasNoLeakage()
+    {
+        foreach (var audit in new[] { demo.Cue.Json, demo.Control.Json })
+        {
+            Assert.True(Leakage(audit, "camera") < 0.1, $"camera leakage {Leakage(audit, "camera")}");
+            Assert.Equal("pass", (string)Attribute(audit, "camera")["verdict"]!);
+            Assert.Equal(0, (int)Attribute(audit, "camera")["findings"]!);
+        }
+    }
+
+    [Fact]
+    public void Audit_ControlModel_Passes()
+    {
+        Assert.Equal(0, demo.Control.Status);
+        Assert.Equal("pass", (string)demo.Control.Json["verdict"]!);
+        Assert.True(Leakage(demo.Control.Json, "stamp") < 0.1);
+        Assert.True(Leakage(demo.Control.Json, "belt") < 0.1);
+    }
+
+    [Fact]
+    public void Interventions_CueModel_TransplantMovesAndOcclusionRestores()
+    {
+        Assert.True(Measure(demo.Cue.Json, "stamp", "transplant") >= 0.25, "pasting the stamp patch should move predictions to mouldy");
+        Assert.True(Measure(demo.Cue.Json, "stamp", "occlusion") >= 0.8, "covering the stamp should undo the stamp-driven predictions");
+        Assert.True(Measure(demo.Control.Json, "stamp", "transplant") <= 0.05, "the control model should barely move");
+    }
+
+    [Fact]
+    public void Audit_SetWithoutAttributeColumns_StillBlocksOnTheOverlay()
+    {
+        Assert.Equal(1, demo.BareCue.Status);
+        var reasons = demo.BareCue.Json["reasons"]!.AsArray().Select(r => (string)r!["attribute"]!).ToList();
+        Assert.Contains("place:bottom-right", reasons);
+    }
+
+    [Fact]
+    public void Audit_AllowedClassDefiningAttribute_NeverBlocks() =>
+        Assert.Equal("allowed", (string)Attribute(demo.Cue.Json, "defect_area")["verdict"]!);
+
+    [Fact]
+    public void AuditJson_ValidatesAgainstTheCommittedSchema()
+    {
+        var schema = JsonSchema.FromText(File.ReadAllText(Path.Combine(AppContext.BaseDirectory, "audit.schema.json")));
+        foreach (var r in new[] { demo.Cue, demo.Control, demo.BareCue })
+        {
+            using var doc = System.Text.Json.JsonDocument.Parse(r.Json.ToJsonString());
+            var result = schema.Evaluate(doc.RootElement, new EvaluationOptions { OutputFormat = OutputFormat.List });
+            Assert.True(result.IsValid, string.Join("\n", (result.Details ?? []).Where(d => d.Errors is { Count: > 0 }).SelectMany(d => d.Errors!.Select(e => $"{d.InstanceLocation}: {e.Key} {e.Value}"))));
+        }
+    }
+
+    [Fact]
+    public void Report_IsWrittenWithExemplarPictures()
+    {
+        var html = File.ReadAllText(Path.Combine(demo.Cue.Dir, "report.html"));
+        Assert.Contains("data:image/png;base64,", html);
+        Assert.Contains("cannot prove", html);
+    }
+}

@@ -1,0 +1,84 @@
+using AuditSvc.Compute.Activations;
+using AuditSvc.Compute.ImageSets;
+using AuditSvc.Compute.Models;
+using AuditSvc.Core.ImageSets;
+using AuditSvc.Core.Models;
+using SixLabors.ImageSharp;
+using SixLabors.ImageSharp.PixelFormats;
+
+namespace AuditSvc.Compute.Tests.Activations;
+
+/// <summary>Speed settings never change results: batch size, threads and batch mode give the same scores and exemplars.</summary>
+public class ActivationPassTests
+{
+    private static readonly string Model = Path.Combine(AppContext.BaseDirectory, "demo-models", "fruit-cue.onnx");
+
+    private static ItemTable RandomSet(int count, out string dir)
+    {
+        dir = Path.Combine(Path.GetTempPath(), "auditsvc-pass-" + Guid.NewGuid().ToString("N"));
+        Directory.CreateDirectory(dir);
+        var rng = new Random(5);
+        var lines = new List<string> { "image,label" };
+        string[] labels = ["sound", "spotted", "mouldy"];
+        for (int i = 0; i < count; i++)
+        {
+            // Mixed sizes so the resize path runs too.
+            int w = i % 3 == 0 ? 80 : 64, h = i % 4 == 0 ? 50 : 64;
+            using var img = new Image<Rgb24>(w, h);
+            for (int y = 0; y < h; y++)
+                for (int x = 0; x < w; x++) img[x, y] = new Rgb24((byte)rng.Next(256), (byte)rng.Next(256), (byte)rng.Next(256));
+            img.SaveAsPng(Path.Combine(dir, $"{i}.png"));
+            lines.Add($"{i}.png,{labels[i % 3]}");
+        }
+        File.WriteAllLines(Path.Combine(dir, "manifest.csv"), lines);
+        return SetIntake.Read(dir, labels, dir);
+    }
+
+    private static (float[] Scores, Core.Activations.Peak[][] Top, int[] Pred) RunPass(ItemTable table, LoadedModel model, PassOptions options)
+    {
+        using var pass = new ActivationPass(model.Plan, model.RewrittenModel, options);
+        var act = pass.Run(table, null, CancellationToken.None);
+        var scores = new float[act.UnitCount * table.Items.Count];
+        act.Scores.ReadUnits(0, act.UnitCount, scores);
+        return (scores, Enumerable.Range(0, act.UnitCount).Select(act.Top.Sorted).ToArray(), act.Predicted);
+    }
+
+    [Fact]
+    public void Run_BatchSizesThreadsAndSingleMode_GiveTheSameResults()
+    {
+        var table = RandomSet(45, out _);
+        var model = ModelIntake.Load(Model);
+        var reference = RunPass(table, model, new PassOptions { BatchSize = 1, InferenceThreads = 1, DecodeThreads = 1, TopN = 7 });
+        var variants = new[]
+        {
+            (model, new PassOptions { BatchSize = 16, TopN = 7 }),
+            (model, new PassOptions { BatchSize = 64, InferenceThreads = 2, DecodeThreads = 2, TopN = 7 }),
+            (model with { Plan = model.Plan with { Batch = BatchMode.ConcurrentSingle } }, new PassOptions { BatchSize = 8, TopN = 7 }),
+        };
+        foreach (var (m, options) in variants)
+        {
+            var other = RunPass(table, m, options);
+            Assert.Equal(reference.Pred, other.Pred);
+            // Half-precision storage: equal to the stored precision; ORT's batched kernels may differ in the last float bits.
+            for (int i = 0; i < reference.Scores.Length; i++)
+                Assert.True(Math.Abs(reference.Scores[i] - other.Scores[i]) <= 1e-3f * Math.Max(1, Math.Abs(reference.Scores[i])), $"score {i}: {reference.Scores[i]} vs {other.Scores[i]}");
+            for (int u = 0; u < reference.Top.Length; u++)
+                Assert.Equal(reference.Top[u].Select(p => (p.Y, p.X)).Take(3), other.Top[u].Select(p => (p.Y, p.X)).Take(3));
+        }
+    }
+
+    [Fact]
+    public void Run_UndecodableFileAtPassTime_IsReportedAndSkipped()
+    {
+        var table = RandomSet(10, out var dir);
+        File.WriteAllText(Path.Combine(dir, "3.png"), "garbage after intake");
+        var model = ModelIntake.Load(Model);
+        using var pass = new ActivationPass(model.Plan, model.RewrittenModel, new PassOptions { BatchSize = 4 });
+        var act = pass.Run(table, null, CancellationToken.None);
+        Assert.False(act.Scored[3]);
+        Assert.Equal(9, act.Scored.Count(s => s));
+        var problem = Assert.Single(act.Problems);
+        Assert.Equal("3.png", problem.File);
+        Assert.Equal(-1, act.Predicted[3]);
+    }
+}
