@@ -15,6 +15,8 @@ public sealed class CountingEngine(string? markers = null, int waitForPeers = 0)
 {
     public sealed record Chunk(int Pid, int[] Items);
 
+    public bool SplitsIntoChunks => true;
+
     public Task<ModelIntake> InspectModelAsync(string modelPath, CancellationToken ct)
     {
         if (!File.Exists(modelPath)) throw new AuditInputException(modelPath, "model file not found");

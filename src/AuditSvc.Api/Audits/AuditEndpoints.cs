@@ -1,4 +1,6 @@
 using AuditSvc.Api.Auth;
+using AuditSvc.Api.Engine;
+using AuditSvc.Core.Gate;
 using AuditSvc.Api.Hosting;
 using AuditSvc.Api.Jobs;
 using AuditSvc.Data.Audits;
@@ -34,7 +36,7 @@ public static class AuditEndpoints
     }
 
     private static async Task<IResult> Submit(SubmitAudit body, HttpContext http, ModelStore models, ImageSetStore sets,
-        AuditStore audits, IBackgroundJobClient queue, IOptions<ServiceOptions> options, CancellationToken ct)
+        AuditStore audits, IAuditEngine engine, IBackgroundJobClient queue, IOptions<ServiceOptions> options, CancellationToken ct)
     {
         var team = http.User.TeamId();
         if (body.ModelId is not { } modelId) return ProblemHandling.Field("modelId", "is required");
@@ -45,7 +47,9 @@ public static class AuditEndpoints
             return ProblemHandling.Field("policy", "must be a JSON object");
         var chunkSize = body.ChunkSize ?? options.Value.ChunkSize;
         if (chunkSize is < 1 or > 1_000_000) return ProblemHandling.Field("chunkSize", "must be between 1 and 1000000");
+        if (!engine.SplitsIntoChunks) chunkSize = Math.Max(1, set.ItemCount);
         var policy = body.Policy?.GetRawText() ?? "{}";
+        PolicyFile.Parse(policy, "policy"); // a bad policy is the caller's 400 now, not a failed audit later
 
         var audit = await audits.CreateAsync(team, modelId, setId, set.ItemCount, chunkSize, policy, ct);
         if (audit is null) return ProblemHandling.Field("modelId", "model or image set is not this team's");

@@ -7,7 +7,8 @@ namespace AuditSvc.Api.Engine;
 public sealed record ModelIntake(string RecipeJson, string LayersJson);
 
 /// <summary>Everything one audit's jobs need, loaded from the database and the artifact root.</summary>
-public sealed record AuditInputs(Guid AuditId, string ModelPath, string RecipeJson, ItemTable Items, string PolicyJson, int OnnxThreads);
+public sealed record AuditInputs(Guid AuditId, string ModelPath, string RecipeJson, string ImageSetFolder, ItemTable Items,
+    string PolicyJson, int OnnxThreads, string WorkDirectory);
 
 /// <summary>
 /// The seam between the service and the engine: jobs call it with ids resolved to files and tables.
@@ -15,6 +16,9 @@ public sealed record AuditInputs(Guid AuditId, string ModelPath, string RecipeJs
 /// </summary>
 public interface IAuditEngine
 {
+    /// <summary>False when the engine can only run an audit whole: the audit then gets a single chunk.</summary>
+    bool SplitsIntoChunks { get; }
+
     /// <summary>Checks a model file; its recipe, when one was given, sits beside it as &lt;name&gt;.recipe.json.</summary>
     Task<ModelIntake> InspectModelAsync(string modelPath, CancellationToken ct);
 

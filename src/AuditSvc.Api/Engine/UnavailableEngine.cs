@@ -8,6 +8,7 @@ public sealed class UnavailableEngine : IAuditEngine
 {
     private static NotSupportedException Missing() => new("the audit engine is not wired into the service yet");
 
+    public bool SplitsIntoChunks => false;
     public Task<ModelIntake> InspectModelAsync(string modelPath, CancellationToken ct) => throw Missing();
     public Task<ItemTable> IntakeImageSetAsync(string folder, CancellationToken ct) => throw Missing();
     public Task<byte[]> RunChunkAsync(AuditInputs inputs, int start, int count, CancellationToken ct) => throw Missing();

@@ -32,7 +32,10 @@ public sealed class AuditInputsLoader(NpgsqlDataSource db, ModelStore models, Im
         var model = await models.GetAsync(a.TeamId, a.ModelId, ct) ?? throw new AuditInputException($"model {a.ModelId}", "is gone");
         if (_tables.Count > 8) _tables.Clear();
         var table = await _tables.GetOrAdd(a.SetId, id => new Lazy<Task<ItemTable>>(() => LoadTableAsync(a.TeamId, id))).Value;
-        return new AuditInputs(auditId, artifacts.FullPath(model.RelativePath), model.Recipe, table, a.Policy, options.Value.OnnxThreads);
+        var folder = await conn.ExecuteScalarAsync<string>(new CommandDefinition(
+            "SELECT relative_path FROM image_sets WHERE id = @setId", new { setId = a.SetId }, cancellationToken: ct));
+        return new AuditInputs(auditId, artifacts.FullPath(model.RelativePath), model.Recipe, artifacts.FullPath(folder!), table,
+            a.Policy, options.Value.OnnxThreads, Path.Combine(artifacts.Root, "scratch", "audit-" + auditId.ToString("N")));
     }
 
     private async Task<ItemTable> LoadTableAsync(Guid teamId, Guid setId)

@@ -61,6 +61,6 @@ internal static class Uploads
             modelId = model.GetProperty("id").GetGuid(),
             imageSetId = set.GetProperty("id").GetGuid(),
             chunkSize,
-            policy = new { threshold = 0.2 },
+            policy = new { leakage_threshold = 0.2 },
         });
 }
