@@ -24,7 +24,7 @@ public sealed class CountingEngine(string? markers = null, int waitForPeers = 0)
         return Task.FromResult(new ModelIntake(File.Exists(recipe) ? File.ReadAllText(recipe) : "{}", """[{"name":"conv1","channels":4}]"""));
     }
 
-    public Task<ItemTable> IntakeImageSetAsync(string folder, CancellationToken ct)
+    public Task<ItemTable> IntakeImageSetAsync(string folder, IReadOnlyList<string>? classNames, CancellationToken ct)
     {
         var labels = Directory.GetDirectories(folder).Select(Path.GetFileName).Order(StringComparer.Ordinal).ToList();
         var items = new List<ImageItem>();

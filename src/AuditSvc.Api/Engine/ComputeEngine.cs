@@ -39,8 +39,8 @@ public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine
         return new ModelIntake(JsonSerializer.Serialize(plan.Recipe, ApiJson.Options), layers);
     }, ct);
 
-    public Task<ItemTable> IntakeImageSetAsync(string folder, CancellationToken ct) =>
-        Task.Run(() => SetIntake.Read(folder, null, Path.Combine(artifacts.Root, "scratch")), ct);
+    public Task<ItemTable> IntakeImageSetAsync(string folder, IReadOnlyList<string>? classNames, CancellationToken ct) =>
+        Task.Run(() => SetIntake.Read(folder, classNames, Path.Combine(artifacts.Root, "scratch")), ct);
 
     public Task<byte[]> RunChunkAsync(AuditInputs inputs, int start, int count, CancellationToken ct) => Task.Run(() =>
     {

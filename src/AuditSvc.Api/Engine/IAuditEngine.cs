@@ -22,8 +22,9 @@ public interface IAuditEngine
     /// <summary>Checks a model file; its recipe, when one was given, sits beside it as &lt;name&gt;.recipe.json.</summary>
     Task<ModelIntake> InspectModelAsync(string modelPath, CancellationToken ct);
 
-    /// <summary>Reads an unpacked image set folder (manifest CSV or class-per-folder).</summary>
-    Task<ItemTable> IntakeImageSetAsync(string folder, CancellationToken ct);
+    /// <summary>Reads an unpacked image set folder (manifest CSV or class-per-folder); labels must be among
+    /// <paramref name="classNames"/> when given (the model's classes in output order).</summary>
+    Task<ItemTable> IntakeImageSetAsync(string folder, IReadOnlyList<string>? classNames, CancellationToken ct);
 
     /// <summary>Runs items [start, start+count) and returns the chunk result as bytes to keep in Postgres.</summary>
     Task<byte[]> RunChunkAsync(AuditInputs inputs, int start, int count, CancellationToken ct);

@@ -10,7 +10,7 @@ public sealed class UnavailableEngine : IAuditEngine
 
     public bool SplitsIntoChunks => false;
     public Task<ModelIntake> InspectModelAsync(string modelPath, CancellationToken ct) => throw Missing();
-    public Task<ItemTable> IntakeImageSetAsync(string folder, CancellationToken ct) => throw Missing();
+    public Task<ItemTable> IntakeImageSetAsync(string folder, IReadOnlyList<string>? classNames, CancellationToken ct) => throw Missing();
     public Task<byte[]> RunChunkAsync(AuditInputs inputs, int start, int count, CancellationToken ct) => throw Missing();
     public Task<AuditOutcome> FinishAsync(AuditInputs inputs, IReadOnlyList<byte[]> chunks, CancellationToken ct) => throw Missing();
 }

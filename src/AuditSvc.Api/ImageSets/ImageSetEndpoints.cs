@@ -8,6 +8,7 @@ using AuditSvc.Api.Hosting;
 using AuditSvc.Core;
 using AuditSvc.Core.ImageSets;
 using AuditSvc.Data.ImageSets;
+using AuditSvc.Data.Models;
 using Microsoft.AspNetCore.Builder;
 using Microsoft.AspNetCore.Http;
 using Microsoft.AspNetCore.Http.HttpResults;
@@ -23,8 +24,11 @@ public sealed record ImageSetResponse(Guid Id, string Name, string ContentHash, 
         JsonText.Element(s.Labels), JsonText.Element(s.Attributes), JsonText.Element(s.Report), s.CreatedAt);
 }
 
-/// <summary>Registers a folder that already sits under the artifact root (path relative to it).</summary>
-public sealed record RegisterFolder(string? Path, string? Name);
+/// <summary>
+/// Registers a folder that already sits under the artifact root (path relative to it). With a model id, labels
+/// are read against that model's class names (needed when labels are names rather than output indices).
+/// </summary>
+public sealed record RegisterFolder(string? Path, string? Name, Guid? ModelId);
 
 public static class ImageSetEndpoints
 {
@@ -33,7 +37,7 @@ public static class ImageSetEndpoints
         var group = api.MapGroup("/image-sets").WithTags("image-sets");
         group.MapPost("/", Upload).DisableAntiforgery()
             .Accepts<IFormFile>("multipart/form-data")
-            .WithSummary("Upload a .zip image set (form part 'archive', optional field 'name'); returns the intake report.")
+            .WithSummary("Upload a .zip image set (form part 'archive', optional fields 'name' and 'modelId'); returns the intake report.")
             .ProducesValidationProblem();
         group.MapPost("/folder", Register)
             .WithSummary("Register a folder under the artifact root as an image set; returns the intake report.")
@@ -44,26 +48,41 @@ public static class ImageSetEndpoints
     }
 
     private static async Task<Created<ImageSetResponse>> Upload(HttpRequest request, ArtifactStore artifacts, IAuditEngine engine,
-        ImageSetStore sets, IOptions<ServiceOptions> options, CancellationToken ct)
+        ImageSetStore sets, ModelStore models, IOptions<ServiceOptions> options, CancellationToken ct)
     {
         var form = await MultipartUpload.ReadAsync(request, "archive", ".zip", artifacts, options.Value.MaxUploadBytes, ct);
+        Guid? modelId = null;
+        if (form.Fields.GetValueOrDefault("modelId") is { Length: > 0 } m)
+            modelId = Guid.TryParse(m, out var g) ? g : throw new AuditInputException("modelId", $"'{m}' is not a model id");
+        var classNames = await ClassNamesAsync(request.HttpContext, models, modelId, ct);
         var folder = artifacts.Unpack(form.File, "archive");
         var name = form.Fields.GetValueOrDefault("name") is { Length: > 0 } n ? n : "image set";
-        return await AddAsync(request.HttpContext, artifacts, engine, sets, name, folder, form.File.ContentHash, ct);
+        return await AddAsync(request.HttpContext, artifacts, engine, sets, name, folder, form.File.ContentHash, classNames, ct);
     }
 
     private static async Task<Created<ImageSetResponse>> Register(RegisterFolder body, HttpContext http, ArtifactStore artifacts,
-        IAuditEngine engine, ImageSetStore sets, CancellationToken ct)
+        IAuditEngine engine, ImageSetStore sets, ModelStore models, CancellationToken ct)
     {
+        var classNames = await ClassNamesAsync(http, models, body.ModelId, ct);
         var folder = artifacts.ResolveFolder(body.Path ?? "", "path");
-        return await AddAsync(http, artifacts, engine, sets, body.Name is { Length: > 0 } n ? n : folder, folder, null, ct);
+        return await AddAsync(http, artifacts, engine, sets, body.Name is { Length: > 0 } n ? n : folder, folder, null, classNames, ct);
+    }
+
+    private static async Task<IReadOnlyList<string>?> ClassNamesAsync(HttpContext http, ModelStore models, Guid? modelId, CancellationToken ct)
+    {
+        if (modelId is not { } id) return null;
+        var model = await models.GetAsync(http.User.TeamId(), id, ct) ?? throw new AuditInputException("modelId", $"no model {id} for this team");
+        using var recipe = JsonDocument.Parse(model.Recipe);
+        return recipe.RootElement.TryGetProperty("classNames", out var names) && names.ValueKind == JsonValueKind.Array
+            ? names.EnumerateArray().Select(e => e.GetString() ?? "").ToList()
+            : null;
     }
 
     private static async Task<Created<ImageSetResponse>> AddAsync(HttpContext http, ArtifactStore artifacts, IAuditEngine engine,
-        ImageSetStore sets, string name, string folder, string? contentHash, CancellationToken ct)
+        ImageSetStore sets, string name, string folder, string? contentHash, IReadOnlyList<string>? classNames, CancellationToken ct)
     {
         if (name.Length > 200) throw new AuditInputException("name", "longer than 200 characters");
-        var table = await engine.IntakeImageSetAsync(artifacts.FullPath(folder), ct);
+        var table = await engine.IntakeImageSetAsync(artifacts.FullPath(folder), classNames, ct);
         if (table.Items.Count == 0) throw new AuditInputException("archive", $"no usable images ({table.Report.Problems.Count} problems at intake)");
         var row = await sets.AddAsync(http.User.TeamId(), name, contentHash ?? HashOf(table), folder,
             JsonSerializer.Serialize(table.Labels, ApiJson.Options), JsonSerializer.Serialize(table.Attributes, ApiJson.Options),
