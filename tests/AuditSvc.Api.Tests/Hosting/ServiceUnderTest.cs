@@ -36,7 +36,9 @@ public sealed class ServiceUnderTest : IAsyncDisposable
     public Uri Address { get; }
     public string Markers => Directory.CreateDirectory(Path.Combine(DataRoot, "markers")).FullName;
 
-    public static async Task<ServiceUnderTest> StartAsync(int workers = 2, IAuditEngine? engine = null)
+    /// <param name="engine">The engine; null for the counting engine.</param>
+    /// <param name="realEngine">Use the service's own engine (AuditSvc.Compute) instead.</param>
+    public static async Task<ServiceUnderTest> StartAsync(int workers = 2, IAuditEngine? engine = null, bool realEngine = false)
     {
         var db = await TestDatabase.CreateAsync(migrate: false);
         var root = Directory.CreateTempSubdirectory("auditsvc-api-").FullName;
@@ -45,7 +47,8 @@ public sealed class ServiceUnderTest : IAsyncDisposable
             b.Configuration.AddInMemoryCollection(Settings(db, root, workers));
             b.WebHost.UseUrls("http://127.0.0.1:0");
             b.Logging.SetMinimumLevel(LogLevel.Warning);
-            b.Services.AddSingleton(engine ?? new CountingEngine());
+            if (realEngine) b.Services.AddSingleton<IAuditEngine, ComputeEngine>();
+            else b.Services.AddSingleton(engine ?? new CountingEngine());
         });
         await app.StartAsync();
         var address = app.Services.GetRequiredService<IServer>().Features.GetRequiredFeature<IServerAddressesFeature>().Addresses.First();
