@@ -26,7 +26,11 @@ pg_user=$(id -un)
 [ "$(id -u)" = 0 ] && pg_user=postgres
 id "$pg_user" >/dev/null 2>&1 || sudo_ useradd --system --no-create-home "$pg_user"
 port=$(( 20000 + RANDOM % 20000 ))
-run_pg() { if [ "$(id -un)" = "$pg_user" ]; then "$@"; else sudo_ -u "$pg_user" "$@" 2>/dev/null || su -s /bin/sh "$pg_user" -c "$(printf '%q ' "$@")"; fi; }
+run_pg() {
+  if [ "$(id -un)" = "$pg_user" ]; then "$@"
+  elif [ "$(id -u)" = 0 ]; then runuser -u "$pg_user" -- "$@"
+  else sudo -u "$pg_user" "$@"; fi
+}
 mkdir -p "$work/pg" && chown "$pg_user" "$work/pg"
 run_pg "$pg_bin/initdb" -D "$work/pg/data" -U auditsvc --auth=trust -E UTF8 >/dev/null
 run_pg "$pg_bin/pg_ctl" -D "$work/pg/data" -l "$work/pg/log" -o "-p $port -k $work/pg -c listen_addresses=127.0.0.1 -c fsync=off -c max_connections=200" -w start >/dev/null

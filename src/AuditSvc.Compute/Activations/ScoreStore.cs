@@ -94,6 +94,23 @@ public sealed class ScoreStore : IUnitScores, IDisposable
         }
     }
 
+    /// <summary>Copies rows [start, start + count) as stored (float16), row-major; rows never written are NaN.</summary>
+    public void ReadRows(int start, int count, Span<Half> destination)
+    {
+        destination.Fill(Half.NaN);
+        for (int item = start; item < start + count;)
+        {
+            int block = item / RowsPerBlock, blockStart = block * RowsPerBlock;
+            int rowsHere = Math.Min(start + count, Math.Min(ItemCount, blockStart + RowsPerBlock)) - item;
+            Half[]? data;
+            lock (_gate) _memory.TryGetValue(block, out data);
+            if (data is null && _onDisk.Contains(block))
+                data = MemoryMarshal.Cast<byte, Half>(File.ReadAllBytes(BlockPath(block))).ToArray();
+            data?.AsSpan((item - blockStart) * UnitCount, rowsHere * UnitCount).CopyTo(destination.Slice((item - start) * UnitCount));
+            item += rowsHere;
+        }
+    }
+
     private string BlockPath(int block) => Path.Combine(_spillDir!, $"scores-{block:D6}.f16");
 
     public void Dispose()

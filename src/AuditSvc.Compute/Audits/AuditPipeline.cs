@@ -50,6 +50,33 @@ public static class AuditPipeline
         }
     }
 
+    /// <summary>
+    /// One chunk of a distributed audit: items [start, start + count) through the model. The service runs these as
+    /// independent jobs and hands the chunks to <see cref="FinishChunks"/>.
+    /// </summary>
+    public static ChunkResult RunChunk(LoadedModel model, ItemTable table, int start, int count, PassOptions options, CancellationToken ct = default)
+    {
+        using var pass = new ActivationPass(model.Plan, model.RewrittenModel, options with { ScoreMemoryLimitBytes = long.MaxValue, SpillDirectory = null });
+        var act = pass.Run(table, null, ct, start, count);
+        return ChunkResult.From(act, start, count);
+    }
+
+    /// <summary>Merges the chunks of an audit, then analysis, interventions and verdict, as <see cref="Run"/> does.</summary>
+    public static AuditResult FinishChunks(LoadedModel model, ItemTable table, IReadOnlyList<ChunkResult> chunks, AuditPolicy policy, PassOptions options,
+        double passSeconds, Action<AuditStage, string>? stage = null, CancellationToken ct = default)
+    {
+        using var pass = new ActivationPass(model.Plan, model.RewrittenModel, options);
+        var act = ChunkResult.Merge(pass.Layers, table.Items.Count, chunks, pass.Options);
+        try
+        {
+            return Finish(pass, table, model, act, policy, passSeconds, stage, ct);
+        }
+        finally
+        {
+            (act.Scores as IDisposable)?.Dispose();
+        }
+    }
+
     /// <summary>Analysis, interventions and verdict over a finished activation pass.</summary>
     public static AuditResult Finish(ActivationPass pass, ItemTable table, LoadedModel model, ActivationResult act, AuditPolicy policy, double passSeconds,
         Action<AuditStage, string>? stage = null, CancellationToken ct = default)

@@ -13,8 +13,31 @@ public static class AttributeBinning
     public const int MaxCategoricalNumbers = 8;
     public const int Bins = 4;
 
-    public static List<AttributeColumn> Build(string[] names, List<string?[]> cells, out int[][] codes)
+    /// <summary>
+    /// A categorical column with more values than this (an id, a file date) is not tested: each value would be
+    /// a handful of images and a multiple-testing burden. Intake reports it so the user can group it.
+    /// </summary>
+    public const int MaxCategoricalValues = 50;
+
+    public static List<AttributeColumn> Build(string[] names, List<string?[]> cells, out int[][] codes) => Build(names, cells, out codes, out _);
+
+    /// <param name="skipped">Columns left out, with the reason.</param>
+    public static List<AttributeColumn> Build(string[] names, List<string?[]> cells, out int[][] codes, out List<(string Column, string Reason)> skipped)
     {
+        skipped = [];
+        var keep = new List<int>();
+        for (int c = 0; c < names.Length; c++)
+        {
+            int distinct = cells.Select(r => c < r.Length ? r[c]?.Trim() : null).Where(v => !string.IsNullOrEmpty(v)).Distinct(StringComparer.Ordinal).Count();
+            bool numeric = cells.All(r => c >= r.Length || string.IsNullOrWhiteSpace(r[c]) || double.TryParse(r[c], NumberStyles.Float, CultureInfo.InvariantCulture, out var d) && double.IsFinite(d));
+            if (!numeric && distinct > MaxCategoricalValues)
+                skipped.Add((names[c], $"attribute column '{names[c]}' has {distinct} distinct values (more than {MaxCategoricalValues}): not tested; group it into fewer values"));
+            else if (distinct == 0)
+                skipped.Add((names[c], $"attribute column '{names[c]}' is empty: not tested"));
+            else keep.Add(c);
+        }
+        names = keep.Select(c => names[c]).ToArray();
+        cells = cells.Select(r => keep.Select(c => c < r.Length ? r[c] : null).ToArray()).ToList();
         codes = cells.Select(_ => new int[names.Length]).ToArray();
         var columns = new List<AttributeColumn>();
         for (int c = 0; c < names.Length; c++)

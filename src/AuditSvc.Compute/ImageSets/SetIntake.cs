@@ -181,7 +181,8 @@ public static class SetIntake
         }
         if (kept.Count == 0)
             throw new AuditInputException(source, $"no usable rows ({rows.Count} read, {problems.Count} rejected{(problems.Count > 0 ? "; first: row " + problems[0].Row + " " + problems[0].File + ": " + problems[0].Reason : "")})");
-        var columns = AttributeBinning.Build(attrNames, attrCells, out var codes);
+        var columns = AttributeBinning.Build(attrNames, attrCells, out var codes, out var skipped);
+        problems.AddRange(skipped.Select(s => new IntakeProblem(null, s.Column, s.Reason)));
         var items = kept.Select((k, i) => new ImageItem(i, k.Row.Row, k.Full, k.Row.Image, k.Label, codes[i], k.Hash)).ToList();
         var report = new IntakeReport(source, rows.Count, items.Count, problems.OrderBy(p => p.Row ?? 0).ToList());
         return new ItemTable(labels, columns, items, report);

@@ -50,7 +50,7 @@ public static class AuditAnalysis
             if (scan.QValues[t] > policy.FdrLevel || !(test.Auroc >= policy.MinAuroc)) continue;
             findings.Add(Describe(table, plan, act, test, scan.QValues[t]));
         }
-        findings.Sort((x, y) => y.Test.Auroc.CompareTo(x.Test.Auroc) is var c && c != 0 ? c : x.Test.PValue.CompareTo(y.Test.PValue));
+        findings = Interleave(findings);
         var groups = new List<GroupAccuracy>();
         var gaps = new Dictionary<int, Measure>();
         foreach (var link in links)
@@ -60,6 +60,23 @@ public static class AuditAnalysis
             if (gap is not null) gaps[link.Attribute] = gap;
         }
         return new AnalysisResult(links, scan, findings, groups, gaps);
+    }
+
+    /// <summary>
+    /// Strongest first within each cue (attribute value), then the cues taken in turn, so that the first findings a
+    /// reviewer reads cover every cue instead of forty units of the loudest one.
+    /// </summary>
+    public static List<FindingCore> Interleave(IEnumerable<FindingCore> findings)
+    {
+        var byCue = findings
+            .GroupBy(f => (f.Attribute, f.Value))
+            .Select(g => g.OrderByDescending(f => f.Test.Auroc).ThenBy(f => f.Test.PValue).ThenBy(f => f.Unit).ToList())
+            .OrderByDescending(g => g.Count).ThenByDescending(g => g[0].Test.Auroc).ToList();
+        var result = new List<FindingCore>();
+        for (int rank = 0; byCue.Any(g => rank < g.Count); rank++)
+            foreach (var g in byCue)
+                if (rank < g.Count) result.Add(g[rank]);
+        return result;
     }
 
     private static FindingCore Describe(ItemTable table, ModelPlan plan, ActivationResult act, AssociationTest test, double q)

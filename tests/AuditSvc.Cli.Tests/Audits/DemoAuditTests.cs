@@ -107,4 +107,17 @@ public class DemoAuditTests(DemoAuditFixture demo)
         Assert.Contains("data:image/png;base64,", html);
         Assert.Contains("cannot prove", html);
     }
+
+    [Fact]
+    public void Compare_ControlThenCueModel_ListsTheRiseAndBlocks()
+    {
+        var policy = Path.Combine(demo.Root, "rise-policy.json");
+        File.WriteAllText(policy, """{ "max_leakage_rise": 0.1 }""");
+        var (status, stdout, stderr) = CliProcess.Run("compare", Path.Combine(demo.Control.Dir, "audit.json"), Path.Combine(demo.Cue.Dir, "audit.json"), "--policy", policy);
+        Assert.True(status == 1, stderr);
+        Assert.Contains("verdict: block (before: pass, now: block)", stdout);
+        Assert.Contains("stamp: leakage rose by", stdout);
+        var (same, _, _) = CliProcess.Run("compare", Path.Combine(demo.Control.Dir, "audit.json"), Path.Combine(demo.Control.Dir, "audit.json"), "--policy", policy);
+        Assert.Equal(0, same);
+    }
 }

@@ -119,3 +119,27 @@ public class SetIntakeTests
         Assert.Equal(2, t.Items[1].Label);
     }
 }
+
+public class AttributeBinningTests
+{
+    [Fact]
+    public void Build_IdLikeColumn_IsLeftOutWithAReason()
+    {
+        var cells = Enumerable.Range(0, 80).Select(i => new string?[] { $"id-{i}", i % 2 == 0 ? "a" : "b" }).ToList();
+        var columns = AttributeBinning.Build(["patient", "site"], cells, out var codes, out var skipped);
+        var column = Assert.Single(columns);
+        Assert.Equal("site", column.Name);
+        Assert.Single(codes[0]);
+        var (name, reason) = Assert.Single(skipped);
+        Assert.Equal("patient", name);
+        Assert.Contains("80 distinct values", reason);
+    }
+
+    [Fact]
+    public void QuantileEdges_HeavyTies_MergeEdgesSoNoBinIsEmptyByConstruction()
+    {
+        var edges = AttributeBinning.QuantileEdges([0, 0, 0, 0, 0, 0, 0, 1, 2, 3]);
+        Assert.Equal(edges.Distinct().Count(), edges.Length);
+        Assert.Equal(0, AttributeBinning.BinOf(edges, 0));
+    }
+}
