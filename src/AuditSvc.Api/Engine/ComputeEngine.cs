@@ -1,4 +1,5 @@
-using System.Text;
+using System.Collections.Concurrent;
+using System.Diagnostics;
 using System.Text.Json;
 using AuditSvc.Api.Artifacts;
 using AuditSvc.Api.Hosting;
@@ -16,13 +17,16 @@ using ComputeModelIntake = AuditSvc.Compute.Models.ModelIntake;
 namespace AuditSvc.Api.Engine;
 
 /// <summary>
-/// The engine in AuditSvc.Compute behind the service's seam. The engine has no chunked pass yet, so an audit
-/// runs whole as one chunk through the same <see cref="AuditPipeline.Run"/> the command line calls, and its
-/// audit.json is the same document, byte for byte as the command line writes it.
+/// The engine in AuditSvc.Compute behind the service's seam: chunk jobs call <see cref="AuditPipeline.RunChunk"/>
+/// on their items and the merge calls <see cref="AuditPipeline.FinishChunks"/>, so the service's audit.json is the
+/// document the command line writes for the same inputs (byte for byte as <see cref="AuditJson.Write"/> puts it on disk).
 /// </summary>
 public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine
 {
-    public bool SplitsIntoChunks => false;
+    // Loading checks and rewrites the graph; a worker runs many chunks of the same model, so keep the last few.
+    private readonly ConcurrentDictionary<string, Lazy<LoadedModel>> _models = new(StringComparer.Ordinal);
+
+    public bool SplitsIntoChunks => true;
 
     public Task<ModelIntake> InspectModelAsync(string modelPath, CancellationToken ct) => Task.Run(() =>
     {
@@ -44,14 +48,32 @@ public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine
 
     public Task<byte[]> RunChunkAsync(AuditInputs inputs, int start, int count, CancellationToken ct) => Task.Run(() =>
     {
-        if (start != 0 || count != inputs.Items.Items.Count)
-            throw new NotSupportedException("the engine runs an audit whole; this audit was split into chunks");
-        var request = new AuditRequest(inputs.ModelPath, inputs.ImageSetFolder, new ModelLoadOptions(),
-            PolicyFile.Parse(inputs.PolicyJson, "policy"), new PassOptions { InferenceThreads = inputs.OnnxThreads }, inputs.WorkDirectory);
+        var clock = Stopwatch.StartNew();
+        var chunk = AuditPipeline.RunChunk(Model(inputs.ModelPath), inputs.Items, start, count, PassOptionsFor(inputs), ct);
+        using var buffer = new MemoryStream();
+        // The chunk's pass time goes first, so the merge can report the pass's time as the sum over chunks.
+        buffer.Write(BitConverter.GetBytes(clock.Elapsed.TotalSeconds));
+        chunk.Write(buffer);
+        return buffer.ToArray();
+    }, ct);
+
+    public Task<AuditOutcome> FinishAsync(AuditInputs inputs, IReadOnlyList<byte[]> chunks, CancellationToken ct) => Task.Run(() =>
+    {
+        double passSeconds = 0;
+        var parsed = new List<ChunkResult>(chunks.Count);
+        foreach (var bytes in chunks)
+        {
+            passSeconds += BitConverter.ToDouble(bytes, 0);
+            using var stream = new MemoryStream(bytes, sizeof(double), bytes.Length - sizeof(double), writable: false);
+            parsed.Add(ChunkResult.Read(stream));
+        }
+        var policy = PolicyFile.Parse(inputs.PolicyJson, "policy");
+        Directory.CreateDirectory(inputs.WorkDirectory);
         try
         {
-            var run = AuditPipeline.Run(request, ct: ct);
-            return Encoding.UTF8.GetBytes(AuditJson.Serialize(run.Result) + "\n"); // as AuditJson.Write puts it on disk
+            var options = PassOptionsFor(inputs) with { SpillDirectory = Path.Combine(inputs.WorkDirectory, "scores") };
+            var result = AuditPipeline.FinishChunks(Model(inputs.ModelPath), inputs.Items, parsed, policy, options, passSeconds, ct: ct);
+            return Outcome(AuditJson.Serialize(result) + "\n", result);
         }
         finally
         {
@@ -59,16 +81,21 @@ public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine
         }
     }, ct);
 
-    public Task<AuditOutcome> FinishAsync(AuditInputs inputs, IReadOnlyList<byte[]> chunks, CancellationToken ct)
+    private static AuditOutcome Outcome(string json, AuditResult result)
     {
-        if (chunks.Count != 1) throw new NotSupportedException($"expected the whole audit in one chunk, got {chunks.Count}");
-        var json = Encoding.UTF8.GetString(chunks[0]);
-        var result = AuditJson.Deserialize(json);
         var findings = result.Findings.Select((f, i) => new FindingRow(i, f.Layer, f.Unit, f.Attribute, f.Value,
             Finite(f.OddsRatio), Finite(f.QValue), f.Region, JsonSerializer.Serialize(f, AuditJson.Options))).ToList();
         var scores = result.Attributes.Select(a => new AttributeScoreRow(a.Name, a.Leakage ?? 0, a.Verdict,
             JsonSerializer.Serialize(a.Measures, AuditJson.Options))).ToList();
-        return Task.FromResult(new AuditOutcome(json, result.Verdict, findings, scores));
+        return new AuditOutcome(json, result.Verdict, findings, scores);
+    }
+
+    private static PassOptions PassOptionsFor(AuditInputs inputs) => new() { InferenceThreads = inputs.OnnxThreads };
+
+    private LoadedModel Model(string path)
+    {
+        if (_models.Count > 4) _models.Clear();
+        return _models.GetOrAdd(path, p => new Lazy<LoadedModel>(() => ComputeModelIntake.Load(p))).Value;
     }
 
     // Postgres double precision takes infinities, but JSON detail and clients read them badly; keep them out of columns.

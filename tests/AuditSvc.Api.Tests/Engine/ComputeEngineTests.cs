@@ -19,7 +19,7 @@ public sealed class ComputeEngineTests
     private const int Seed = 20261202;
 
     [PgFact]
-    public async Task Demo_ThroughTheService_SameDocumentAsInProcessAudit()
+    public async Task Demo_ThroughTheServiceInChunks_SameVerdictFindingsAndReasonsAsInProcessAudit()
     {
         await using var svc = await ServiceUnderTest.StartAsync(workers: 1, realEngine: true);
         using var client = await svc.ClientAsync("team-a");
@@ -33,12 +33,12 @@ public sealed class ComputeEngineTests
         var set = await client.PostAsJsonAsync("/api/image-sets/folder", new { path = "incoming/fruit", name = "demo", modelId });
         Assert.Equal(HttpStatusCode.Created, set.StatusCode);
         var setId = (await set.Content.ReadFromJsonAsync<JsonElement>()).GetProperty("id").GetGuid();
-        var submit = await client.PostAsJsonAsync("/api/audits", new { modelId, imageSetId = setId, policy = new { allowed_attributes = new[] { "defect_area" } } });
+        var submit = await client.PostAsJsonAsync("/api/audits", new { modelId, imageSetId = setId, chunkSize = 200, policy = new { allowed_attributes = new[] { "defect_area" } } });
         Assert.Equal(HttpStatusCode.Accepted, submit.StatusCode);
         var id = (await submit.Content.ReadFromJsonAsync<AuditSnapshot>())!.Id;
         var end = await svc.WaitForEndAsync(client, id);
 
-        Assert.Equal(("done", local.Verdict), (end.State, end.Verdict));
+        Assert.Equal(("done", local.Verdict, 3), (end.State, end.Verdict, end.Progress.ChunksDone));
         var served = AuditJson.Deserialize(await client.GetStringAsync($"/api/audits/{id}/result"));
         Assert.Equal(local.Attributes.Select(a => (a.Name, a.Leakage, a.Verdict)), served.Attributes.Select(a => (a.Name, a.Leakage, a.Verdict)));
         Assert.Equal(local.Findings.Select(f => (f.Layer, f.Unit, f.Attribute, f.Value, f.QValue)), served.Findings.Select(f => (f.Layer, f.Unit, f.Attribute, f.Value, f.QValue)));
