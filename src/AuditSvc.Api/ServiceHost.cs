@@ -41,7 +41,8 @@ public static class ServiceHost
         app.MapGroup("/api").RequireAuthorization("team")
             .MapModels()
             .MapImageSets()
-            .MapAudits();
+            .MapAudits()
+            .MapReviews();
         app.MapJobDashboard();
         return app;
     }

@@ -67,7 +67,7 @@ public sealed class CountingEngine(string? markers = null, int waitForPeers = 0)
             countedOnce = counts.Count(c => c == 1),
             processes = parsed.Select(c => c.Pid).Distinct().Order().ToArray(),
         });
-        return Task.FromResult(new AuditOutcome(json, verdict, [],
+        return Task.FromResult(new AuditOutcome(json, verdict, [new FindingRow(0, "conv1", 3, "stamp", "yes", 4.0, 0.01, "top-left", "{}")],
             [new AttributeScoreRow("stamp", verdict == "pass" ? 0.05 : 0.9, verdict, "{}")]));
     }
 

@@ -24,6 +24,7 @@ public static class DataServiceExtensions
         services.AddSingleton<ImageSetStore>();
         services.AddSingleton<AuditStore>();
         services.AddSingleton<ChunkStore>();
+        services.AddSingleton<ReviewStore>();
         services.AddSingleton<ArtifactStore>();
         services.AddHostedService<MigrateOnStart>();
         return services;

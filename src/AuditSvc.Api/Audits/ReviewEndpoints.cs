@@ -1,0 +1,50 @@
+using System.Text.Json;
+using AuditSvc.Api.Auth;
+using AuditSvc.Api.Hosting;
+using AuditSvc.Data.Audits;
+using Microsoft.AspNetCore.Builder;
+using Microsoft.AspNetCore.Http;
+using Microsoft.AspNetCore.Routing;
+
+namespace AuditSvc.Api.Audits;
+
+public sealed record FindingResponse(int Ordinal, string Layer, int Unit, string Attribute, string Value,
+    double? OddsRatio, double? QValue, string? Region, JsonElement Detail);
+
+/// <summary>A reviewer's decision on an audit, or on one of its findings (by ordinal).</summary>
+public sealed record AddReview(int? Finding, string? Reviewer, string? Decision, string? Note);
+
+public static class ReviewEndpoints
+{
+    private static readonly string[] Decisions = ["confirmed", "dismissed", "note"];
+
+    public static RouteGroupBuilder MapReviews(this RouteGroupBuilder api)
+    {
+        var group = api.MapGroup("/audits/{id:guid}").WithTags("audits");
+        group.MapGet("/findings", Findings).WithSummary("The audit's findings, in the order of audit.json.");
+        group.MapGet("/reviews", List);
+        group.MapPost("/reviews", Add).WithSummary("Record a reviewer's decision: confirmed, dismissed or note.").ProducesValidationProblem();
+        return api;
+    }
+
+    private static async Task<IResult> Findings(Guid id, HttpContext http, ReviewStore reviews, CancellationToken ct) =>
+        await reviews.FindingsAsync(http.User.TeamId(), id, ct) is { } rows
+            ? TypedResults.Ok(rows.Select(f => new FindingResponse(f.Ordinal, f.Layer, f.Unit, f.Attribute, f.Value,
+                f.OddsRatio, f.QValue, f.Region, JsonText.Element(f.DetailJson))).ToList())
+            : NotFound(id);
+
+    private static async Task<IResult> List(Guid id, HttpContext http, ReviewStore reviews, CancellationToken ct) =>
+        await reviews.ListAsync(http.User.TeamId(), id, ct) is { } rows ? TypedResults.Ok(rows) : NotFound(id);
+
+    private static async Task<IResult> Add(Guid id, AddReview body, HttpContext http, ReviewStore reviews, CancellationToken ct)
+    {
+        if (string.IsNullOrWhiteSpace(body.Reviewer) || body.Reviewer.Length > 200) return ProblemHandling.Field("reviewer", "is required (at most 200 characters)");
+        if (body.Decision is null || !Decisions.Contains(body.Decision)) return ProblemHandling.Field("decision", "must be confirmed, dismissed or note");
+        if (body.Note is { Length: > 10_000 }) return ProblemHandling.Field("note", "longer than 10000 characters");
+        if (body.Finding is < 0) return ProblemHandling.Field("finding", "must be a finding's ordinal (0 or more)");
+        var row = await reviews.AddAsync(http.User.TeamId(), id, body.Finding, body.Reviewer, body.Decision, body.Note ?? "", ct);
+        return row is null ? NotFound(id) : TypedResults.Created($"/api/audits/{id}/reviews", row);
+    }
+
+    private static IResult NotFound(Guid id) => TypedResults.Problem(statusCode: 404, title: $"no audit {id} for this team");
+}
