@@ -72,6 +72,7 @@ CREATE TABLE audits (
     verdict            text CHECK (verdict IN ('pass','block')),
     error              text,
     merge_lease_until  timestamptz,
+    merge_attempts     integer NOT NULL DEFAULT 0,
     created_at         timestamptz NOT NULL DEFAULT now(),
     started_at         timestamptz,
     finished_at        timestamptz

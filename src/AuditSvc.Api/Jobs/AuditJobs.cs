@@ -82,7 +82,13 @@ public sealed partial class AuditJobs(ChunkStore chunks, AuditInputsLoader loade
     public async Task MergeAsync(Guid auditId, bool fromLastChunk, CancellationToken ct)
     {
         // Only the job the last chunk enqueued may take the merge inside the grace the completion set.
-        if (!await chunks.ClaimMergeAsync(auditId, options.Value.Lease * 10, fromLastChunk, ct)) return;
+        var attempt = await chunks.ClaimMergeAsync(auditId, options.Value.Lease * 10, fromLastChunk, ct);
+        if (attempt is null) return;
+        if (attempt > MaxAttempts)
+        {
+            await chunks.FailAsync(auditId, $"merge and analysis failed {MaxAttempts} times", ct);
+            return;
+        }
         try
         {
             var inputs = await loader.LoadAsync(auditId, ct);

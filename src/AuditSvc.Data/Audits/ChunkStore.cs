@@ -106,16 +106,20 @@ public sealed class ChunkStore(NpgsqlDataSource db)
         return new ChunkCompletion(true, last.Value);
     }
 
-    /// <summary>Takes the merge of an audit in merging whose merge lease is free or expired.</summary>
-    public async Task<bool> ClaimMergeAsync(Guid auditId, TimeSpan lease, bool force, CancellationToken ct)
+    /// <summary>
+    /// Takes the merge of an audit in merging whose merge lease is free or expired (or any, with
+    /// <paramref name="force"/>); returns the attempt number, or null when the merge is not to be taken.
+    /// </summary>
+    public async Task<int?> ClaimMergeAsync(Guid auditId, TimeSpan lease, bool force, CancellationToken ct)
     {
         await using var conn = await db.OpenConnectionAsync(ct);
-        return await conn.ExecuteAsync(new CommandDefinition(
+        return await conn.QuerySingleOrDefaultAsync<int?>(new CommandDefinition(
             """
-            UPDATE audits SET merge_lease_until = now() + @lease
+            UPDATE audits SET merge_lease_until = now() + @lease, merge_attempts = merge_attempts + 1
             WHERE id = @auditId AND state = 'merging'
               AND (@force OR merge_lease_until IS NULL OR merge_lease_until < now())
-            """, new { auditId, lease, force }, cancellationToken: ct)) == 1;
+            RETURNING merge_attempts
+            """, new { auditId, lease, force }, cancellationToken: ct));
     }
 
     /// <summary>Every chunk result in chunk order; call only when all chunks are done.</summary>

@@ -73,4 +73,33 @@ public sealed class AuditJobsTests
         Assert.Equal(("done", 6), (endA.State, endA.Progress.ItemsDone));
         Assert.Equal(("done", 8), (endB.State, endB.Progress.ItemsDone));
     }
+
+    [PgFact]
+    public async Task Audit_EngineRejectsInput_EndsFailedWithTheMessage()
+    {
+        await using var svc = await ServiceUnderTest.StartAsync(workers: 1, engine: new RejectingEngine());
+        using var client = await svc.ClientAsync("team-a");
+        var id = await AuditEndpointsTests.SubmitAsync(client, await Uploads.ModelAsync(client), await Uploads.ImageSetAsync(client, 2), 2);
+
+        var end = await svc.WaitForEndAsync(client, id);
+
+        Assert.Equal("failed", end.State);
+        Assert.Contains("cat/cat-000.png", end.Error, StringComparison.Ordinal);
+        var verdict = await client.GetAsync($"/api/audits/{id}/verdict");
+        Assert.Equal(System.Net.HttpStatusCode.Conflict, verdict.StatusCode);
+    }
+
+    /// <summary>Reads sets like the counting engine, then refuses the first image as the real engine would a corrupt file.</summary>
+    private sealed class RejectingEngine : AuditSvc.Api.Engine.IAuditEngine
+    {
+        private readonly CountingEngine _inner = new();
+        public bool SplitsIntoChunks => true;
+        public Task<AuditSvc.Api.Engine.ModelIntake> InspectModelAsync(string modelPath, CancellationToken ct) => _inner.InspectModelAsync(modelPath, ct);
+        public Task<AuditSvc.Core.ImageSets.ItemTable> IntakeImageSetAsync(string folder, IReadOnlyList<string>? classNames, CancellationToken ct) =>
+            _inner.IntakeImageSetAsync(folder, classNames, ct);
+        public Task<byte[]> RunChunkAsync(AuditSvc.Api.Engine.AuditInputs inputs, int start, int count, CancellationToken ct) =>
+            throw new AuditSvc.Core.AuditInputException(inputs.Items.Items[0].RelativePath, "not a decodable image");
+        public Task<AuditSvc.Data.Audits.AuditOutcome> FinishAsync(AuditSvc.Api.Engine.AuditInputs inputs, IReadOnlyList<byte[]> chunks, CancellationToken ct) =>
+            _inner.FinishAsync(inputs, chunks, ct);
+    }
 }

@@ -92,8 +92,9 @@ public sealed class ChunkStoreTests
         var claim = (await chunks.ClaimAsync(audit.Id, 0, Minute, None))!;
         Assert.True((await chunks.CompleteAsync(claim, [1], Minute, None)).LastChunk);
 
-        Assert.True(await chunks.ClaimMergeAsync(audit.Id, Minute, force: true, None));
-        Assert.False(await chunks.ClaimMergeAsync(audit.Id, Minute, force: false, None));
+        Assert.Equal(1, await chunks.ClaimMergeAsync(audit.Id, Minute, force: true, None));
+        Assert.Null(await chunks.ClaimMergeAsync(audit.Id, Minute, force: false, None));
+        Assert.Equal(2, await chunks.ClaimMergeAsync(audit.Id, Minute, force: true, None));
     }
 
     [PgFact]
