@@ -11,6 +11,7 @@ namespace AuditSvc.Compute.Audits;
 /// </summary>
 public sealed class ImageRuns(ActivationPass pass) : IDisposable
 {
+    private const long CacheBytes = 128L << 20;
     private readonly Dictionary<int, Image<Rgb24>> _cache = [];
 
     public int Runs { get; private set; }
@@ -27,7 +28,9 @@ public sealed class ImageRuns(ActivationPass pass) : IDisposable
         {
             return null;
         }
-        if (_cache.Count > 2048) { foreach (var i in _cache.Values) i.Dispose(); _cache.Clear(); }
+        // Bounded by bytes, not count: 224×224 images are 150 KB each.
+        // Evicted images are not disposed: a caller may still hold one; the collector takes them.
+        if ((_cache.Count + 1L) * img.Width * img.Height * 3 > CacheBytes) _cache.Clear();
         _cache[item] = img;
         return img;
     }
