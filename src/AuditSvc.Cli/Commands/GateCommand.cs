@@ -4,10 +4,10 @@ using AuditSvc.Core;
 
 namespace AuditSvc.Cli.Commands;
 
-/// <summary>`auditsvc gate --server URL --audit ID`: prints the verdict; exit 0 pass, 1 block, 2 usage, 3 not decided.</summary>
+/// <summary>`auditsvc gate --server URL --audit ID`: prints the verdict; exit 0 pass, 1 block, 2 usage, 4 not decided (3 stays an internal error).</summary>
 internal static class GateCommand
 {
-    public const int NotDecided = 3;
+    public const int NotDecided = 4;
 
     public static Command Create()
     {
