@@ -11,7 +11,7 @@ namespace AuditSvc.Api.Tests;
 /// ran it; the finish checks that every item was counted exactly once. Intake reads a class-per-folder tree.
 /// Optional marker folder: each chunk drops "&lt;pid&gt;-&lt;chunk&gt;.started" there, and a "hang" file makes it wait forever.
 /// </summary>
-public sealed class CountingEngine(string? markers = null, int waitForPeers = 0) : IAuditEngine
+public sealed class CountingEngine(string? markers = null, int waitForPeers = 0, TimeSpan chunkTime = default) : IAuditEngine
 {
     public sealed record Chunk(int Pid, int[] Items);
 
@@ -50,6 +50,7 @@ public sealed class CountingEngine(string? markers = null, int waitForPeers = 0)
             // Hold the first chunk until another process has started one too, so both provably share the audit.
             for (var i = 0; i < 600 && waitForPeers > 0 && Peers(markers) < waitForPeers; i++) await Task.Delay(100, ct);
         }
+        if (chunkTime > TimeSpan.Zero) await Task.Delay(chunkTime, ct);
         var chunk = new Chunk(Environment.ProcessId, Enumerable.Range(start, count).ToArray());
         return JsonSerializer.SerializeToUtf8Bytes(chunk);
     }

@@ -75,6 +75,23 @@ public sealed class AuditJobsTests
     }
 
     [PgFact]
+    public async Task Audit_ChunksLongerThanTheLease_AreNotTakenTwice()
+    {
+        // Lease 5 s, reconciler every second, chunks of 12 s: only the heartbeat keeps other workers off them.
+        await using var svc = await ServiceUnderTest.StartAsync(workers: 3, engine: new CountingEngine(chunkTime: TimeSpan.FromSeconds(12)));
+        using var client = await svc.ClientAsync("team-a");
+        var id = await AuditEndpointsTests.SubmitAsync(client, await Uploads.ModelAsync(client), await Uploads.ImageSetAsync(client, 2), 2);
+
+        var end = await svc.WaitForEndAsync(client, id);
+
+        Assert.Equal(("done", 4), (end.State, end.Progress.ItemsDone));
+        await using var conn = await svc.Db.DataSource.OpenConnectionAsync();
+        await using var cmd = new Npgsql.NpgsqlCommand("SELECT max(attempt) FROM audit_chunks WHERE audit_id = $1", conn);
+        cmd.Parameters.Add(new Npgsql.NpgsqlParameter { Value = id });
+        Assert.Equal(1, await cmd.ExecuteScalarAsync());
+    }
+
+    [PgFact]
     public async Task Audit_EngineRejectsInput_EndsFailedWithTheMessage()
     {
         await using var svc = await ServiceUnderTest.StartAsync(workers: 1, engine: new RejectingEngine());
