@@ -95,7 +95,7 @@ public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine
     private LoadedModel Model(string path)
     {
         if (_models.Count > 4) _models.Clear();
-        return _models.GetOrAdd(path, p => new Lazy<LoadedModel>(() => ComputeModelIntake.Load(p))).Value;
+        return _models.GetOrAdd(path, p => new Lazy<LoadedModel>(() => ComputeModelIntake.Load(p), LazyThreadSafetyMode.PublicationOnly)).Value;
     }
 
     // Postgres double precision takes infinities, but JSON detail and clients read them badly; keep them out of columns.

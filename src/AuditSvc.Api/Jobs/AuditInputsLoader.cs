@@ -31,7 +31,14 @@ public sealed class AuditInputsLoader(NpgsqlDataSource db, ModelStore models, Im
         if (a.TeamId == Guid.Empty) throw new AuditInputException($"audit {auditId}", "does not exist");
         var model = await models.GetAsync(a.TeamId, a.ModelId, ct) ?? throw new AuditInputException($"model {a.ModelId}", "is gone");
         if (_tables.Count > 8) _tables.Clear();
-        var table = await _tables.GetOrAdd(a.SetId, id => new Lazy<Task<ItemTable>>(() => LoadTableAsync(a.TeamId, id))).Value;
+        var load = _tables.GetOrAdd(a.SetId, id => new Lazy<Task<ItemTable>>(() => LoadTableAsync(a.TeamId, id)));
+        ItemTable table;
+        try { table = await load.Value; }
+        catch
+        {
+            _tables.TryRemove(a.SetId, out _); // do not keep a failure (a dropped connection) for the next job
+            throw;
+        }
         var folder = await conn.ExecuteScalarAsync<string>(new CommandDefinition(
             "SELECT relative_path FROM image_sets WHERE id = @setId", new { setId = a.SetId }, cancellationToken: ct));
         return new AuditInputs(auditId, artifacts.FullPath(model.RelativePath), model.Recipe, artifacts.FullPath(folder!), table,
