@@ -55,6 +55,9 @@ public sealed class CountingEngine(string? markers = null, int waitForPeers = 0,
         return JsonSerializer.SerializeToUtf8Bytes(chunk);
     }
 
+    public Task<string> RenderReportAsync(AuditInputs inputs, string auditJson, CancellationToken ct) =>
+        Task.FromResult($"<!doctype html><title>audit</title><pre>{System.Net.WebUtility.HtmlEncode(auditJson)}</pre>");
+
     public Task<AuditOutcome> FinishAsync(AuditInputs inputs, IReadOnlyList<byte[]> chunks, CancellationToken ct)
     {
         var parsed = chunks.Select(c => JsonSerializer.Deserialize<Chunk>(c)!).ToList();

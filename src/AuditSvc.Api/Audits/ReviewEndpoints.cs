@@ -1,6 +1,8 @@
 using System.Text.Json;
 using AuditSvc.Api.Auth;
+using AuditSvc.Api.Engine;
 using AuditSvc.Api.Hosting;
+using AuditSvc.Api.Jobs;
 using AuditSvc.Data.Audits;
 using Microsoft.AspNetCore.Builder;
 using Microsoft.AspNetCore.Http;
@@ -22,6 +24,8 @@ public static class ReviewEndpoints
     {
         var group = api.MapGroup("/audits/{id:guid}").WithTags("audits");
         group.MapGet("/findings", Findings).WithSummary("The audit's findings, in the order of audit.json.");
+        group.MapGet("/report", Report).WithSummary("The browser report (HTML) of a finished audit, with exemplar crops.")
+            .Produces(200, contentType: "text/html");
         group.MapGet("/reviews", List);
         group.MapPost("/reviews", Add).WithSummary("Record a reviewer's decision: confirmed, dismissed or note.").ProducesValidationProblem();
         return api;
@@ -32,6 +36,18 @@ public static class ReviewEndpoints
             ? TypedResults.Ok(rows.Select(f => new FindingResponse(f.Ordinal, f.Layer, f.Unit, f.Attribute, f.Value,
                 f.OddsRatio, f.QValue, f.Region, JsonText.Element(f.DetailJson))).ToList())
             : NotFound(id);
+
+    private static async Task<IResult> Report(Guid id, HttpContext http, AuditStore audits, AuditInputsLoader loader,
+        IAuditEngine engine, CancellationToken ct)
+    {
+        var team = http.User.TeamId();
+        if (await audits.ResultAsync(team, id, ct) is not { } json)
+            return await audits.GetAsync(team, id, ct) is { } a
+                ? TypedResults.Problem(statusCode: 409, title: $"audit {id} is {a.State}, not done", extensions: new Dictionary<string, object?> { ["state"] = a.State })
+                : NotFound(id);
+        var html = await engine.RenderReportAsync(await loader.LoadAsync(id, ct), json, ct);
+        return TypedResults.Text(html, "text/html; charset=utf-8");
+    }
 
     private static async Task<IResult> List(Guid id, HttpContext http, ReviewStore reviews, CancellationToken ct) =>
         await reviews.ListAsync(http.User.TeamId(), id, ct) is { } rows ? TypedResults.Ok(rows) : NotFound(id);

@@ -8,7 +8,9 @@ using AuditSvc.Compute.Audits;
 using AuditSvc.Compute.ImageSets;
 using AuditSvc.Compute.Models;
 using AuditSvc.Core;
+using AuditSvc.Compute.Reporting;
 using AuditSvc.Core.Audits;
+using AuditSvc.Core.Reporting;
 using AuditSvc.Core.Gate;
 using AuditSvc.Core.ImageSets;
 using AuditSvc.Data.Audits;
@@ -79,6 +81,13 @@ public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine
         {
             if (Directory.Exists(inputs.WorkDirectory)) Directory.Delete(inputs.WorkDirectory, recursive: true);
         }
+    }, ct);
+
+    public Task<string> RenderReportAsync(AuditInputs inputs, string auditJson, CancellationToken ct) => Task.Run(() =>
+    {
+        var result = AuditJson.Deserialize(auditJson);
+        var images = new ExemplarImages(item => inputs.Items.Items[item].Path, Model(inputs.ModelPath).Plan.Recipe);
+        return HtmlReport.Render(result, images);
     }, ct);
 
     private static AuditOutcome Outcome(string json, AuditResult result)

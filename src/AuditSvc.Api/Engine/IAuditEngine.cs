@@ -29,6 +29,9 @@ public interface IAuditEngine
     /// <summary>Runs items [start, start+count) and returns the chunk result as bytes to keep in Postgres.</summary>
     Task<byte[]> RunChunkAsync(AuditInputs inputs, int start, int count, CancellationToken ct);
 
+    /// <summary>The browser report for a finished audit: its audit.json with the exemplar crops cut from the set's images.</summary>
+    Task<string> RenderReportAsync(AuditInputs inputs, string auditJson, CancellationToken ct);
+
     /// <summary>Merges the chunk results (in chunk order) and runs the analysis: audit.json, verdict, findings, scores.</summary>
     Task<AuditOutcome> FinishAsync(AuditInputs inputs, IReadOnlyList<byte[]> chunks, CancellationToken ct);
 }

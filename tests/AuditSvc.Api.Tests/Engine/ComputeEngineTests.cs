@@ -43,6 +43,9 @@ public sealed class ComputeEngineTests
         Assert.Equal(local.Attributes.Select(a => (a.Name, a.Leakage, a.Verdict)), served.Attributes.Select(a => (a.Name, a.Leakage, a.Verdict)));
         Assert.Equal(local.Findings.Select(f => (f.Layer, f.Unit, f.Attribute, f.Value, f.QValue)), served.Findings.Select(f => (f.Layer, f.Unit, f.Attribute, f.Value, f.QValue)));
         Assert.Equal(local.Reasons.Select(r => r.Message), served.Reasons.Select(r => r.Message));
+        var report = await client.GetAsync($"/api/audits/{id}/report");
+        Assert.Equal("text/html", report.Content.Headers.ContentType!.MediaType);
+        Assert.Contains("<html", await report.Content.ReadAsStringAsync(), StringComparison.OrdinalIgnoreCase);
     }
 
     private static async Task<Guid> UploadModelAsync(HttpClient client, string model)

@@ -20,7 +20,7 @@ public sealed class ServiceHostTests
         var paths = doc.GetProperty("paths").EnumerateObject().Select(p => p.Name).ToHashSet();
         foreach (var route in new[] { "/api/models", "/api/models/{id}", "/api/image-sets", "/api/image-sets/folder", "/api/image-sets/{id}",
                      "/api/audits", "/api/audits/{id}", "/api/audits/{id}/result", "/api/audits/{id}/verdict", "/api/audits/{id}/cancel",
-                     "/api/audits/{id}/findings", "/api/audits/{id}/reviews" })
+                     "/api/audits/{id}/findings", "/api/audits/{id}/reviews", "/api/audits/{id}/report" })
             Assert.Contains(route, paths);
     }
 

@@ -116,6 +116,8 @@ public sealed class AuditJobsTests
             _inner.IntakeImageSetAsync(folder, classNames, ct);
         public Task<byte[]> RunChunkAsync(AuditSvc.Api.Engine.AuditInputs inputs, int start, int count, CancellationToken ct) =>
             throw new AuditSvc.Core.AuditInputException(inputs.Items.Items[0].RelativePath, "not a decodable image");
+        public Task<string> RenderReportAsync(AuditSvc.Api.Engine.AuditInputs inputs, string auditJson, CancellationToken ct) =>
+            _inner.RenderReportAsync(inputs, auditJson, ct);
         public Task<AuditSvc.Data.Audits.AuditOutcome> FinishAsync(AuditSvc.Api.Engine.AuditInputs inputs, IReadOnlyList<byte[]> chunks, CancellationToken ct) =>
             _inner.FinishAsync(inputs, chunks, ct);
     }
