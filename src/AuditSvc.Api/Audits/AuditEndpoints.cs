@@ -100,8 +100,7 @@ public static class AuditEndpoints
         return TypedResults.Ok(AuditResponse.From(a, DateTime.UtcNow));
     }
 
-    // Another team's audit answers exactly like a missing one, so ids cannot be probed.
-    private static ProblemHttpResult NotFound(Guid id) => TypedResults.Problem(statusCode: 404, title: $"no audit {id} for this team");
+    private static ProblemHttpResult NotFound(Guid id) => ProblemHandling.AuditNotFound(id);
 
     private static ProblemHttpResult NotDone(AuditRow a) => TypedResults.Problem(statusCode: 409,
         title: $"audit {a.Id} is {a.State}, not done", detail: a.Error, extensions: StateOf(a));

@@ -62,5 +62,5 @@ public static class ReviewEndpoints
         return row is null ? NotFound(id) : TypedResults.Created($"/api/audits/{id}/reviews", row);
     }
 
-    private static IResult NotFound(Guid id) => TypedResults.Problem(statusCode: 404, title: $"no audit {id} for this team");
+    private static IResult NotFound(Guid id) => ProblemHandling.AuditNotFound(id);
 }

@@ -3,6 +3,7 @@ using Microsoft.AspNetCore.Builder;
 using Microsoft.AspNetCore.Diagnostics;
 using Microsoft.AspNetCore.Http;
 using Microsoft.AspNetCore.Http.Features;
+using Microsoft.AspNetCore.Http.HttpResults;
 using Microsoft.Extensions.DependencyInjection;
 
 namespace AuditSvc.Api.Hosting;
@@ -24,6 +25,9 @@ public static class ProblemHandling
     public static IResult Field(string field, string message) =>
         TypedResults.ValidationProblem(new Dictionary<string, string[]> { [field] = [message] },
             title: $"{field}: {message}");
+
+    /// <summary>404 for an audit that is missing or another team's: both answer alike, so ids cannot be probed.</summary>
+    public static ProblemHttpResult AuditNotFound(Guid id) => TypedResults.Problem(statusCode: 404, title: $"no audit {id} for this team");
 
     private sealed class InputExceptionHandler(IProblemDetailsService problems) : IExceptionHandler
     {

@@ -62,8 +62,10 @@ public sealed class ChunkStore(NpgsqlDataSource db)
         await using var conn = await db.OpenConnectionAsync(ct);
         return await conn.ExecuteAsync(new CommandDefinition(
             """
-            UPDATE audit_chunks SET lease_until = now() + @lease, updated_at = now()
-            WHERE audit_id = @AuditId AND chunk_index = @ChunkIndex AND state = 'running' AND lease_token = @Token
+            UPDATE audit_chunks c SET lease_until = now() + @lease, updated_at = now()
+            FROM audits a
+            WHERE a.id = c.audit_id AND a.state = 'running'
+              AND c.audit_id = @AuditId AND c.chunk_index = @ChunkIndex AND c.state = 'running' AND c.lease_token = @Token
             """, new { claim.AuditId, claim.ChunkIndex, claim.Token, lease }, cancellationToken: ct)) == 1;
     }
 

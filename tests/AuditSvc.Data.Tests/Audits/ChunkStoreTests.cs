@@ -79,6 +79,7 @@ public sealed class ChunkStoreTests
         var claim = (await chunks.ClaimAsync(audit.Id, 0, Minute, None))!;
         await new AuditStore(db.DataSource).CancelAsync(audit.TeamId, audit.Id, None);
 
+        Assert.False(await chunks.ExtendAsync(claim, Minute, None)); // the worker's heartbeat stops the chunk
         Assert.False((await chunks.CompleteAsync(claim, [1], Minute, None)).Accepted);
         Assert.Equal(0, (await new AuditStore(db.DataSource).GetAsync(audit.TeamId, audit.Id, None))!.ItemsDone);
     }
