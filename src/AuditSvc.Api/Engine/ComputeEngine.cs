@@ -99,7 +99,9 @@ public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine
         return new AuditOutcome(json, result.Verdict, findings, scores);
     }
 
-    private static PassOptions PassOptionsFor(AuditInputs inputs) => new() { InferenceThreads = inputs.OnnxThreads };
+    // The pass would otherwise size its inference and decode threads to the whole machine, once per job thread.
+    private static PassOptions PassOptionsFor(AuditInputs inputs) =>
+        new() { InferenceThreads = inputs.OnnxThreads, DecodeThreads = inputs.OnnxThreads };
 
     private LoadedModel Model(string path)
     {
