@@ -4,6 +4,7 @@ using AuditSvc.Api.Hosting;
 using AuditSvc.Api.ImageSets;
 using AuditSvc.Api.Jobs;
 using AuditSvc.Api.Models;
+using AuditSvc.Api.Pages;
 using AuditSvc.Core;
 using Microsoft.AspNetCore.Builder;
 using Microsoft.AspNetCore.Http;
@@ -28,6 +29,7 @@ public static class ServiceHost
             .AddAuditData()
             .AddAuditJobs(settings, runServer: true)
             .AddApiKeyAuth()
+            .AddReviewPages(settings)
             .AddAuditProblems()
             .AddOpenApi();
         builder.WebHost.ConfigureKestrel(k => k.Limits.MaxRequestBodySize = settings.MaxUploadBytes);
@@ -43,6 +45,7 @@ public static class ServiceHost
             .MapImageSets()
             .MapAudits()
             .MapReviews();
+        app.MapReviewPages();
         app.MapJobDashboard();
         return app;
     }

@@ -18,8 +18,6 @@ public sealed record AddReview(int? Finding, string? Reviewer, string? Decision,
 
 public static class ReviewEndpoints
 {
-    private static readonly string[] Decisions = ["confirmed", "dismissed", "note"];
-
     public static RouteGroupBuilder MapReviews(this RouteGroupBuilder api)
     {
         var group = api.MapGroup("/audits/{id:guid}").WithTags("audits");
@@ -45,9 +43,12 @@ public static class ReviewEndpoints
             return await audits.GetAsync(team, id, ct) is { } a
                 ? TypedResults.Problem(statusCode: 409, title: $"audit {id} is {a.State}, not done", extensions: new Dictionary<string, object?> { ["state"] = a.State })
                 : NotFound(id);
-        var html = await engine.RenderReportAsync(await loader.LoadAsync(id, ct), json, ct);
-        return TypedResults.Text(html, "text/html; charset=utf-8");
+        return TypedResults.Text(await RenderReportAsync(id, json, loader, engine, ct), "text/html; charset=utf-8");
     }
+
+    /// <summary>The report page of a finished audit (its audit.json and exemplar crops); the browser pages embed the same.</summary>
+    internal static async Task<string> RenderReportAsync(Guid id, string auditJson, AuditInputsLoader loader, IAuditEngine engine, CancellationToken ct) =>
+        await engine.RenderReportAsync(await loader.LoadAsync(id, ct), auditJson, ct);
 
     private static async Task<IResult> List(Guid id, HttpContext http, ReviewStore reviews, CancellationToken ct) =>
         await reviews.ListAsync(http.User.TeamId(), id, ct) is { } rows ? TypedResults.Ok(rows) : NotFound(id);
@@ -55,7 +56,8 @@ public static class ReviewEndpoints
     private static async Task<IResult> Add(Guid id, AddReview body, HttpContext http, ReviewStore reviews, CancellationToken ct)
     {
         if (string.IsNullOrWhiteSpace(body.Reviewer) || body.Reviewer.Length > 200) return ProblemHandling.Field("reviewer", "is required (at most 200 characters)");
-        if (body.Decision is null || !Decisions.Contains(body.Decision)) return ProblemHandling.Field("decision", "must be confirmed, dismissed or note");
+        if (body.Decision is null || !ReviewDecisions.All.Contains(body.Decision))
+            return ProblemHandling.Field("decision", $"must be one of {string.Join(", ", ReviewDecisions.All)}");
         if (body.Note is { Length: > 10_000 }) return ProblemHandling.Field("note", "longer than 10000 characters");
         if (body.Finding is < 0) return ProblemHandling.Field("finding", "must be a finding's ordinal (0 or more)");
         var row = await reviews.AddAsync(http.User.TeamId(), id, body.Finding, body.Reviewer, body.Decision, body.Note ?? "", ct);

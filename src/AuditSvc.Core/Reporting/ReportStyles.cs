@@ -1,8 +1,10 @@
 namespace AuditSvc.Core.Reporting;
 
-/// <summary>The report's inline style sheet: neutral greys, one accent, verdict colours; local fonts only.</summary>
-internal static class ReportStyles
+/// <summary>The report's inline style sheet: neutral greys, one accent, verdict colours; local fonts only.
+/// Public so that the service's browser pages around the report look the same.</summary>
+public static class ReportStyles
 {
+    /// <summary>The CSS text, without the style element around it.</summary>
     public const string Css = """
 :root { --fg:#1f2328; --muted:#59636e; --line:#d8dee4; --soft:#f5f6f8; --accent:#2563eb;
         --pass:#1a7f37; --pass-bg:#e8f5ec; --block:#b42318; --block-bg:#fdecea; --warn:#8a5a00; --warn-bg:#fff4d6; }

@@ -43,6 +43,19 @@ public sealed class ApiKeyStore(NpgsqlDataSource db)
         return new Caller(row.TeamId, row.TeamName, row.Id);
     }
 
+    /// <summary>The live (not revoked) key with this prefix, or null; one indexed lookup, cheap enough for every request.</summary>
+    public async Task<ApiKeyInfo?> FindActiveAsync(string prefix, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        return await conn.QuerySingleOrDefaultAsync<ApiKeyInfo>(new CommandDefinition(
+            """
+            SELECT k.id AS Id, k.team_id AS TeamId, t.name AS TeamName, k.prefix AS Prefix, k.name AS Name,
+                   k.created_at AS CreatedAt, k.revoked_at AS RevokedAt
+            FROM api_keys k JOIN teams t ON t.id = k.team_id
+            WHERE k.prefix = @prefix AND k.revoked_at IS NULL
+            """, new { prefix }, cancellationToken: ct));
+    }
+
     public async Task<IReadOnlyList<ApiKeyInfo>> ListAsync(CancellationToken ct)
     {
         await using var conn = await db.OpenConnectionAsync(ct);
