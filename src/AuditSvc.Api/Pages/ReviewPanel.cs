@@ -53,7 +53,8 @@ internal static class ReviewPanel
         foreach (var f in shown)
         {
             sb.Append("<div class=\"review-item\" id=\"rv-f-").Append(f.Ordinal).Append("\"><h3><span class=\"mono\">").Append(E(f.Layer)).Append(" / unit ")
-              .Append(f.Unit).Append("</span> <span class=\"cue\">").Append(E(f.Attribute)).Append('=').Append(E(f.Value)).Append("</span></h3>")
+              .Append(f.Unit).Append("</span> <span class=\"cue\">").Append(E(f.Attribute)).Append('=').Append(E(f.Value)).Append("</span> <a class=\"small\" href=\"#")
+              .Append(E(HtmlReport.FindingAnchor(f.Layer, f.Unit))).Append("\">exemplars in the report ↑</a></h3>")
               .Append("<div class=\"stats\"><span class=\"stat\"><span class=\"k\">q</span><span class=\"v\">").Append(Q(f.QValue))
               .Append("</span></span><span class=\"stat\"><span class=\"k\">odds ratio</span><span class=\"v\">").Append(f.OddsRatio is { } or ? Num(or, "0.0") : "—")
               .Append("</span></span><span class=\"stat\"><span class=\"k\">region</span><span class=\"v\">").Append(E(f.Region ?? "—")).Append("</span></span></div>\n");

@@ -17,6 +17,10 @@ public static partial class HtmlReport
     /// <summary>Problem rows listed per table; the count says how many there are.</summary>
     public const int MaxProblems = 50;
 
+    /// <summary>The id of a finding's article in the page, so other pages can link to it (<c>#f-…</c>).</summary>
+    public static string FindingAnchor(string layer, int unit) =>
+        $"f-{Anchor(layer)}-{unit.ToString(System.Globalization.CultureInfo.InvariantCulture)}";
+
     public static string Render(AuditResult result, IExemplarImages images)
     {
         ArgumentNullException.ThrowIfNull(result);
