@@ -6,4 +6,5 @@ root.Subcommands.Add(AuditCommand.Create());
 root.Subcommands.Add(InspectCommand.Create());
 root.Subcommands.Add(DemoCommand.Create());
 root.Subcommands.Add(DemoSetCommand.Create());
+root.Subcommands.Add(BenchCommand.Create());
 return await ExitCodes.RunAsync(root, args);

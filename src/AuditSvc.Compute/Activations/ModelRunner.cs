@@ -15,7 +15,7 @@ public sealed class ModelRunner : IDisposable
     private readonly string[] _inputNames;
     private readonly string[] _outputNames;
 
-    public ModelRunner(ModelPlan plan, byte[] onnx, int threads)
+    public ModelRunner(ModelPlan plan, byte[] onnx, int threads, bool spinning = true)
     {
         Plan = plan;
         using var options = new SessionOptions
@@ -25,6 +25,8 @@ public sealed class ModelRunner : IDisposable
             ExecutionMode = ExecutionMode.ORT_SEQUENTIAL,
             GraphOptimizationLevel = GraphOptimizationLevel.ORT_ENABLE_ALL,
         };
+        // Spinning keeps a core busy between kernels; when decoders share the cores it takes their time.
+        options.AddSessionConfigEntry("session.intra_op.allow_spinning", spinning ? "1" : "0");
         _session = new InferenceSession(onnx, options);
         _inputNames = [plan.InputName];
         _outputNames = [plan.OutputName, .. plan.ReadLayers.Select(l => l.Name)];

@@ -1,0 +1,64 @@
+namespace AuditSvc.Compute.Bench;
+
+/// <summary>What to measure: the model, how many images, and the pass settings (zero = the pass chooses).</summary>
+public sealed record BenchOptions(
+    string ModelPath,
+    int Images = 200,
+    int BatchSize = 0,
+    int Threads = 0,
+    int PhotoWidth = 500,
+    int PhotoHeight = 375,
+    int MemoryFactor = 10,
+    int Rounds = 3,
+    int LeakRuns = 3,
+    string? WorkDirectory = null,
+    string? TorchScript = null,
+    string Python = "/usr/bin/python3");
+
+/// <summary>Images per second of one phase (best of the rounds) and the seconds it took.</summary>
+public sealed record PhaseRate(double ImagesPerSecond, double Seconds);
+
+/// <summary>
+/// One bench run. Ratios are inside the run: pass / raw and whole / raw, and whole against the rate decode and
+/// inference allow together when they share the cores (1 / (1/decode + 1/raw)).
+/// </summary>
+public sealed record BenchResult(
+    string Model,
+    string Machine,
+    int Cores,
+    int Images,
+    int BatchSize,
+    int InferenceThreads,
+    int DecodeThreads,
+    string BatchMode,
+    int Units,
+    string PhotoSize,
+    string RawSource,
+    PhaseRate Raw,
+    PhaseRate Pass,
+    PhaseRate Whole,
+    PhaseRate Decode,
+    double SharedBound,
+    long PeakBytesAtN,
+    long PeakBytesAtFactorN,
+    int FactorImages,
+    PhaseRate WholeAtFactorN,
+    IReadOnlyList<long> ResidentAfterRuns,
+    long ProbabilityBytesPerImage,
+    double LoadAverage)
+{
+    /// <summary>The eager-mode script's images per second on the same images and threads, when it ran.</summary>
+    public double? TorchImagesPerSecond { get; init; }
+
+    public string? TorchNote { get; init; }
+
+    public double? WholeVsTorch => TorchImagesPerSecond is > 0 ? Whole.ImagesPerSecond / TorchImagesPerSecond : null;
+
+    public double PassRatio => Pass.ImagesPerSecond / Raw.ImagesPerSecond;
+
+    public double WholeRatio => Whole.ImagesPerSecond / Raw.ImagesPerSecond;
+
+    public double WholeVsBound => Whole.ImagesPerSecond / SharedBound;
+
+    public double MemoryGrowth => PeakBytesAtN <= 0 ? double.NaN : (double)PeakBytesAtFactorN / PeakBytesAtN - 1;
+}
