@@ -23,7 +23,7 @@ internal static class BenchCommand
         var size = new Option<string?>("--size") { Description = "Generated photo size WxH (default 500x375)" };
         var json = new Option<bool>("--json") { Description = "End with one JSON object on the last line" };
         var factor = new Option<int>("--memory-factor") { Description = "Memory is compared at N and at this multiple of N", DefaultValueFactory = _ => 10 };
-        var rounds = new Option<int>("--rounds") { Description = "Alternating rounds of raw and pass timing; the best of each is kept", DefaultValueFactory = _ => 3 };
+        var rounds = new Option<int>("--rounds") { Description = "Alternating rounds of raw and pass timing; the best of each is kept", DefaultValueFactory = _ => 5 };
         var torch = new Option<string?>("--torch") { Description = "Eager-mode comparison script to run on the same images (bench/torch_hooks.py)" };
         var cmd = new Command("bench", "Throughput and memory of the activation pass against raw inference, measured in one run")
         {
@@ -53,10 +53,11 @@ internal static class BenchCommand
         w.WriteLine($"machine      {r.Machine} (load {r.LoadAverage:0.00} at the end)");
         w.WriteLine($"model        {r.Model}: {r.Units} units, batch {r.BatchSize} ({r.BatchMode}), {r.InferenceThreads} inference / {r.DecodeThreads} decode threads");
         w.WriteLine($"images       N = {r.Images}, photos {r.PhotoSize}");
-        w.WriteLine($"raw          {r.Raw.ImagesPerSecond,8:0.0} images/s  ({r.RawSource})");
-        w.WriteLine($"pass         {r.Pass.ImagesPerSecond,8:0.0} images/s  pass/raw  {r.PassRatio:0.000}");
-        w.WriteLine($"whole        {r.Whole.ImagesPerSecond,8:0.0} images/s  whole/raw {r.WholeRatio:0.000}");
-        w.WriteLine($"decode only  {r.Decode.ImagesPerSecond,8:0.0} images/s");
+        w.WriteLine($"rates        medians of {r.Rounds} rounds; ratios are medians of per-round ratios; CPU ms per image in brackets");
+        w.WriteLine($"raw          {r.Raw.ImagesPerSecond,8:0.0} images/s  [{r.Raw.CpuMsPerImage:0.00}]  ({r.RawSource})");
+        w.WriteLine($"pass         {r.Pass.ImagesPerSecond,8:0.0} images/s  [{r.Pass.CpuMsPerImage:0.00}]  pass/raw  {r.PassRatio:0.000}");
+        w.WriteLine($"whole        {r.Whole.ImagesPerSecond,8:0.0} images/s  [{r.Whole.CpuMsPerImage:0.00}]  whole/raw {r.WholeRatio:0.000}");
+        w.WriteLine($"decode only  {r.Decode.ImagesPerSecond,8:0.0} images/s  [{r.Decode.CpuMsPerImage:0.00}]");
         w.WriteLine($"shared bound {r.SharedBound,8:0.0} images/s  whole/bound {r.WholeVsBound:0.000}  (1 / (1/decode + 1/raw))");
         if (r.TorchImagesPerSecond is { } t) w.WriteLine($"eager script {t,8:0.0} images/s  whole/script {r.WholeVsTorch:0.00}");
         else if (r.TorchNote is not null) w.WriteLine($"eager script not run: {r.TorchNote}");
@@ -74,6 +75,8 @@ internal static class BenchCommand
         ["model"] = r.Model, ["machine"] = r.Machine, ["cores"] = r.Cores, ["images"] = r.Images, ["batch_size"] = r.BatchSize,
         ["inference_threads"] = r.InferenceThreads, ["decode_threads"] = r.DecodeThreads, ["batch_mode"] = r.BatchMode, ["units"] = r.Units,
         ["photo_size"] = r.PhotoSize, ["raw_source"] = r.RawSource,
+        ["rounds"] = r.Rounds, ["raw_cpu_ms"] = Round(r.Raw.CpuMsPerImage), ["pass_cpu_ms"] = Round(r.Pass.CpuMsPerImage),
+        ["whole_cpu_ms"] = Round(r.Whole.CpuMsPerImage), ["decode_cpu_ms"] = Round(r.Decode.CpuMsPerImage),
         ["raw_ips"] = Round(r.Raw.ImagesPerSecond), ["pass_ips"] = Round(r.Pass.ImagesPerSecond), ["whole_ips"] = Round(r.Whole.ImagesPerSecond),
         ["decode_ips"] = Round(r.Decode.ImagesPerSecond), ["shared_bound_ips"] = Round(r.SharedBound),
         ["pass_ratio"] = Round(r.PassRatio), ["whole_ratio"] = Round(r.WholeRatio), ["whole_vs_bound"] = Round(r.WholeVsBound),

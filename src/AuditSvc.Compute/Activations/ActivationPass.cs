@@ -19,6 +19,7 @@ public readonly record struct PassProgress(int Done, int Total, double ImagesPer
 public sealed class ActivationPass : IDisposable
 {
     private readonly ModelRunner _runner;
+    private readonly Lazy<ModelRunner> _fullRunner;
     private readonly Preprocessor _pre;
     private readonly IReadOnlyList<LayerSlice> _layers;
     private readonly int _units;
@@ -28,7 +29,13 @@ public sealed class ActivationPass : IDisposable
         var single = plan.Batch == BatchMode.ConcurrentSingle;
         var probe = new Preprocessor(plan.Recipe);
         Options = options.Resolve(probe.SlotLength, single);
-        _runner = new ModelRunner(plan, onnx, single ? 1 : Options.InferenceThreads, Options.Spinning ?? false);
+        int threads = single ? 1 : Options.InferenceThreads;
+        bool inGraph = Options.ReduceInGraph ?? true;
+        _runner = inGraph
+            ? new ModelRunner(plan, ReducedGraph.Rewrite(onnx, plan.ReadLayers), threads, Options.Spinning ?? false, reduced: true)
+            : new ModelRunner(plan, onnx, threads, Options.Spinning ?? false);
+        // Interventions read full maps of single units; their session is made only when they ask.
+        _fullRunner = inGraph ? new Lazy<ModelRunner>(() => new ModelRunner(plan, onnx, threads, Options.Spinning ?? false)) : new Lazy<ModelRunner>(_runner);
         _pre = new Preprocessor(plan.Recipe) { Channels = _runner.Channels };
         var slices = new List<LayerSlice>();
         int first = 0;
@@ -43,7 +50,8 @@ public sealed class ActivationPass : IDisposable
 
     public PassOptions Options { get; }
 
-    public ModelRunner Runner => _runner;
+    /// <summary>A runner whose layer outputs are the full activation maps (for runs that read single units).</summary>
+    public ModelRunner Runner => _fullRunner.Value;
 
     public Preprocessor Preprocessor => _pre;
 
@@ -182,6 +190,20 @@ public sealed class ActivationPass : IDisposable
             cls.Slice(i * k, k).CopyTo(dest);
             if (!_runner.Plan.OutputIsProbabilities) Softmax(dest);
         }
+        if (_runner.Reduced)
+        {
+            int o = 0;
+            foreach (var slice in _layers)
+            {
+                if (slice.Layer.Rank == 4)
+                {
+                    LayerReduce.FromGraph(slice, layers[o], layers[o + 1], count, offset, _units, batch.Scores, batch.PeakY, batch.PeakX);
+                    o += 2;
+                }
+                else LayerReduce.Run(slice, layers[o++], count, offset, _units, batch.Scores, batch.PeakY, batch.PeakX, parallel: false);
+            }
+            return;
+        }
         for (int l = 0; l < _layers.Count; l++)
             LayerReduce.Run(_layers[l], layers[l], count, offset, _units, batch.Scores, batch.PeakY, batch.PeakX, parallel);
     }
@@ -195,5 +217,9 @@ public sealed class ActivationPass : IDisposable
         for (int i = 0; i < v.Length; i++) v[i] /= sum;
     }
 
-    public void Dispose() => _runner.Dispose();
+    public void Dispose()
+    {
+        if (_fullRunner.IsValueCreated && _fullRunner.Value != _runner) _fullRunner.Value.Dispose();
+        _runner.Dispose();
+    }
 }

@@ -36,6 +36,26 @@ internal static class LayerReduce
         });
     }
 
+    /// <summary>Copies in-graph maxima [count, C] and first arg-maxima [count, C] (int64) into the batch's rows.</summary>
+    public static void FromGraph(LayerSlice slice, OrtValue max, OrtValue argMax, int count, int offset, int units,
+        float[] scores, short[] peakY, short[] peakX)
+    {
+        int c = slice.Layer.Channels, w = slice.Layer.Width;
+        var m = max.GetTensorDataAsSpan<float>();
+        var a = argMax.GetTensorDataAsSpan<long>();
+        for (int i = 0; i < count; i++)
+        {
+            int at = (offset + i) * units + slice.FirstUnit;
+            m.Slice(i * c, c).CopyTo(scores.AsSpan(at, c));
+            for (int ch = 0; ch < c; ch++)
+            {
+                int index = (int)a[i * c + ch];
+                peakY[at + ch] = (short)(index / w);
+                peakX[at + ch] = (short)(index % w);
+            }
+        }
+    }
+
     /// <summary>Planes [from, to) of the layer, plane p being image p / c, channel p % c.</summary>
     private static void Planes(ReadOnlySpan<float> data, int from, int to, int plane, int c, int w, int offset, int units, int firstUnit,
         float[] scores, short[] peakY, short[] peakX)

@@ -25,6 +25,12 @@ public sealed record PassOptions
     /// </summary>
     public bool? Spinning { get; init; }
 
+    /// <summary>
+    /// Whether the channel maxima are computed inside the graph (<see cref="ReducedGraph"/>) rather than over the
+    /// full activation maps handed out by ONNX Runtime (<see cref="LayerReduce"/>). Null = choose: in the graph.
+    /// </summary>
+    public bool? ReduceInGraph { get; init; }
+
     /// <summary>Concrete settings for a model whose input slot holds <paramref name="slotFloats"/> floats.</summary>
     public PassOptions Resolve(int slotFloats, bool singleRuns = false) => Resolve(slotFloats, singleRuns, Environment.ProcessorCount);
 
@@ -44,6 +50,7 @@ public sealed record PassOptions
             InferenceThreads = InferenceThreads > 0 ? InferenceThreads : cores,
             DecodeThreads = DecodeThreads > 0 ? DecodeThreads : cores,
             Spinning = Spinning ?? false,
+            ReduceInGraph = ReduceInGraph ?? true,
         };
     }
 }

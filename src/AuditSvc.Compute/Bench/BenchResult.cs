@@ -9,14 +9,18 @@ public sealed record BenchOptions(
     int PhotoWidth = 500,
     int PhotoHeight = 375,
     int MemoryFactor = 10,
-    int Rounds = 3,
+    int Rounds = 5,
     int LeakRuns = 3,
     string? WorkDirectory = null,
     string? TorchScript = null,
+    double MinPhaseSeconds = 1.5,
     string Python = "/usr/bin/python3");
 
-/// <summary>Images per second of one phase (best of the rounds) and the seconds it took.</summary>
-public sealed record PhaseRate(double ImagesPerSecond, double Seconds);
+/// <summary>Images per second of one phase, the seconds it took, and the process's CPU milliseconds per image.</summary>
+public sealed record PhaseRate(double ImagesPerSecond, double Seconds, double CpuMsPerImage);
+
+/// <summary>Medians over the rounds of ratios taken within each round.</summary>
+public sealed record Ratios(double Pass, double Whole, double WholeVsBound);
 
 /// <summary>
 /// One bench run. Ratios are inside the run: pass / raw and whole / raw, and whole against the rate decode and
@@ -39,13 +43,15 @@ public sealed record BenchResult(
     PhaseRate Whole,
     PhaseRate Decode,
     double SharedBound,
+    Ratios Ratios,
     long PeakBytesAtN,
     long PeakBytesAtFactorN,
     int FactorImages,
     PhaseRate WholeAtFactorN,
     IReadOnlyList<long> ResidentAfterRuns,
     long ProbabilityBytesPerImage,
-    double LoadAverage)
+    double LoadAverage,
+    int Rounds)
 {
     /// <summary>The eager-mode script's images per second on the same images and threads, when it ran.</summary>
     public double? TorchImagesPerSecond { get; init; }
@@ -54,11 +60,11 @@ public sealed record BenchResult(
 
     public double? WholeVsTorch => TorchImagesPerSecond is > 0 ? Whole.ImagesPerSecond / TorchImagesPerSecond : null;
 
-    public double PassRatio => Pass.ImagesPerSecond / Raw.ImagesPerSecond;
+    public double PassRatio => Ratios.Pass;
 
-    public double WholeRatio => Whole.ImagesPerSecond / Raw.ImagesPerSecond;
+    public double WholeRatio => Ratios.Whole;
 
-    public double WholeVsBound => Whole.ImagesPerSecond / SharedBound;
+    public double WholeVsBound => Ratios.WholeVsBound;
 
     public double MemoryGrowth => PeakBytesAtN <= 0 ? double.NaN : (double)PeakBytesAtFactorN / PeakBytesAtN - 1;
 }

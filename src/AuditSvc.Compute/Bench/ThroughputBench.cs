@@ -3,7 +3,6 @@ using System.Runtime.InteropServices;
 using AuditSvc.Compute.Activations;
 using AuditSvc.Compute.Models;
 using AuditSvc.Core.Models;
-using Microsoft.ML.OnnxRuntime;
 
 namespace AuditSvc.Compute.Bench;
 
@@ -48,9 +47,9 @@ public static class ThroughputBench
         pass.Run(BenchImages.Table(files, Math.Min(o.Images, opt.BatchSize * 2), work), null, ct);
 
         PeakMemory.Reset();
-        var whole = Timed(o.Images, () => pass.Run(table, null, ct));
+        var first = Timed(o.Images, () => pass.Run(table, null, ct));
         long peakN = PeakMemory.PeakBytes();
-        log($"whole pass at N={o.Images}: {whole.ImagesPerSecond:0.0} images/s, peak {peakN >> 20} MB");
+        log($"whole pass at N={o.Images}: {first.ImagesPerSecond:0.0} images/s, peak {peakN >> 20} MB");
         PeakMemory.Reset();
         var wholeBig = Timed(big.Items.Count, () => pass.Run(big, null, ct));
         long peakBig = PeakMemory.PeakBytes();
@@ -68,25 +67,36 @@ public static class ThroughputBench
         if (resident.Count > 0) log($"resident after {resident.Count} more passes: {string.Join(", ", resident.Select(b => $"{b >> 20} MB"))}");
 
         var tensors = new float[(long)o.Images * slot];
-        var decode = DecodeAll(pass, files, tensors, opt.DecodeThreads);
-        decode = Best(decode, DecodeAll(pass, files, tensors, opt.DecodeThreads));
-        log($"decode alone: {decode.ImagesPerSecond:0.0} images/s");
-
+        DecodeAll(pass, files, tensors, opt.DecodeThreads);
         var (rawBytes, rawSource) = RawModel(o.ModelPath, model, opt.BatchSize);
-        using var raw = new ModelRunner(model.Plan, rawBytes, model.Plan.Batch == BatchMode.ConcurrentSingle ? 1 : opt.InferenceThreads);
+        using var raw = new ModelRunner(model.Plan, rawBytes, model.Plan.Batch == BatchMode.ConcurrentSingle ? 1 : opt.InferenceThreads, opt.Spinning ?? false);
         RunRaw(raw, tensors, Math.Min(o.Images, opt.BatchSize * 2), slot, opt);
         pass.RunTensors(tensors, Math.Min(o.Images, opt.BatchSize * 2), null, ct);
-        PhaseRate? rawRate = null, passRate = null;
+        var rounds = new List<(PhaseRate Decode, PhaseRate Raw, PhaseRate Pass, PhaseRate Whole)>();
         for (int r = 0; r < Math.Max(1, o.Rounds); r++)
         {
-            // Alternate the two so load from other processes hits both alike; keep the best of each.
-            rawRate = Best(rawRate, Timed(o.Images, () => RunRaw(raw, tensors, o.Images, slot, opt)));
-            passRate = Best(passRate, Timed(o.Images, () => pass.RunTensors(tensors, o.Images, null, ct)));
+            // Every phase once per round, back to back, so load from other processes hits them alike;
+            // ratios are taken within a round and the median round is reported.
+            var round = (
+                Repeated(o.MinPhaseSeconds, o.Images, () => DecodeAll(pass, files, tensors, opt.DecodeThreads)),
+                Repeated(o.MinPhaseSeconds, o.Images, () => RunRaw(raw, tensors, o.Images, slot, opt)),
+                Repeated(o.MinPhaseSeconds, o.Images, () => pass.RunTensors(tensors, o.Images, null, ct)),
+                Repeated(o.MinPhaseSeconds, o.Images, () => pass.Run(table, null, ct)));
+            rounds.Add(round);
+            log($"round {r + 1}: decode {round.Item1.ImagesPerSecond:0.0}, raw {round.Item2.ImagesPerSecond:0.0}, pass {round.Item3.ImagesPerSecond:0.0}, " +
+                $"whole {round.Item4.ImagesPerSecond:0.0} images/s; load {LoadAverage():0.0}");
             ct.ThrowIfCancellationRequested();
         }
-        log($"raw inference: {rawRate!.ImagesPerSecond:0.0} images/s ({rawSource}); activation pass on tensors: {passRate!.ImagesPerSecond:0.0} images/s");
-
-        double bound = 1 / (1 / decode.ImagesPerSecond + 1 / rawRate.ImagesPerSecond);
+        static double Bound(PhaseRate d, PhaseRate r) => 1 / (1 / d.ImagesPerSecond + 1 / r.ImagesPerSecond);
+        var ratios = new Ratios(
+            Median(rounds.Select(x => x.Pass.ImagesPerSecond / x.Raw.ImagesPerSecond)),
+            Median(rounds.Select(x => x.Whole.ImagesPerSecond / x.Raw.ImagesPerSecond)),
+            Median(rounds.Select(x => x.Whole.ImagesPerSecond / Bound(x.Decode, x.Raw))));
+        var decode = MedianRate(rounds.Select(x => x.Decode));
+        var rawRate = MedianRate(rounds.Select(x => x.Raw));
+        var passRate = MedianRate(rounds.Select(x => x.Pass));
+        var whole = MedianRate(rounds.Select(x => x.Whole));
+        double bound = Median(rounds.Select(x => Bound(x.Decode, x.Raw)));
         double? torch = null;
         string? torchNote = null;
         if (o.TorchScript is not null)
@@ -100,8 +110,8 @@ public static class ThroughputBench
         return new BenchResult(
             Path.GetFileName(o.ModelPath), MachineName(), Environment.ProcessorCount, o.Images, opt.BatchSize, opt.InferenceThreads, opt.DecodeThreads,
             model.Plan.Batch == BatchMode.Batched ? "batched" : "concurrent-single", units, $"{o.PhotoWidth}x{o.PhotoHeight}", rawSource,
-            rawRate, passRate, whole, decode, bound, peakN, peakBig, big.Items.Count, wholeBig, resident,
-            model.Plan.ClassCount * sizeof(float) + sizeof(int) + sizeof(bool), LoadAverage())
+            rawRate, passRate, whole, decode, bound, ratios, peakN, peakBig, big.Items.Count, wholeBig, resident,
+            model.Plan.ClassCount * sizeof(float) + sizeof(int) + sizeof(bool), LoadAverage(), rounds.Count)
         {
             TorchImagesPerSecond = torch,
             TorchNote = torchNote,
@@ -110,43 +120,68 @@ public static class ThroughputBench
 
     private static PhaseRate Timed(int images, Action run)
     {
+        var cpu = Process.GetCurrentProcess().TotalProcessorTime;
         var clock = Stopwatch.StartNew();
         run();
         double s = clock.Elapsed.TotalSeconds;
-        return new PhaseRate(images / Math.Max(1e-9, s), s);
+        double cpuSeconds = (Process.GetCurrentProcess().TotalProcessorTime - cpu).TotalSeconds;
+        return new PhaseRate(images / Math.Max(1e-9, s), s, cpuSeconds * 1000 / images);
     }
 
-    private static PhaseRate Best(PhaseRate? a, PhaseRate b) => a is null || b.ImagesPerSecond > a.ImagesPerSecond ? b : a;
+    private static double Median(IEnumerable<double> values)
+    {
+        var v = values.Order().ToArray();
+        return v.Length == 0 ? double.NaN : v.Length % 2 == 1 ? v[v.Length / 2] : (v[v.Length / 2 - 1] + v[v.Length / 2]) / 2;
+    }
 
-    private static PhaseRate DecodeAll(ActivationPass pass, IReadOnlyList<string> files, float[] tensors, int threads)
+    private static PhaseRate MedianRate(IEnumerable<PhaseRate> rates)
+    {
+        var v = rates.OrderBy(r => r.ImagesPerSecond).ToArray();
+        return v[v.Length / 2];
+    }
+
+    /// <summary>Runs the whole set again until the phase's minimum time has passed, so fast models are timed long enough.</summary>
+    private static PhaseRate Repeated(double minSeconds, int images, Action run)
+    {
+        var cpu = Process.GetCurrentProcess().TotalProcessorTime;
+        var clock = Stopwatch.StartNew();
+        int done = 0;
+        do
+        {
+            run();
+            done += images;
+        }
+        while (clock.Elapsed.TotalSeconds < minSeconds);
+        double s = clock.Elapsed.TotalSeconds;
+        double cpuSeconds = (Process.GetCurrentProcess().TotalProcessorTime - cpu).TotalSeconds;
+        return new PhaseRate(done / s, s, cpuSeconds * 1000 / done);
+    }
+
+    private static void DecodeAll(ActivationPass pass, IReadOnlyList<string> files, float[] tensors, int threads)
     {
         var pre = pass.Preprocessor;
         int slot = pre.SlotLength;
-        return Timed(files.Count, () => Parallel.For(0, files.Count, new ParallelOptions { MaxDegreeOfParallelism = threads }, i =>
+        Parallel.For(0, files.Count, new ParallelOptions { MaxDegreeOfParallelism = threads }, i =>
         {
             using var image = pre.Load(files[i]);
             pre.Write(image, tensors.AsSpan((int)((long)i * slot), slot));
-        }));
+        });
     }
 
     /// <summary>
-    /// The original model's bytes when they run at the pass's batch; a model whose batch is fixed at 1 but was
-    /// freed by the intake runs as rewritten, asking only for the class output.
+    /// The original model's bytes when they run at the pass's batch. A model whose batch is fixed at 1 but was
+    /// freed by the intake runs as the original graph with only its batch dimension made symbolic.
     /// </summary>
     private static (byte[] Bytes, string Source) RawModel(string path, LoadedModel model, int batch)
     {
         var original = File.ReadAllBytes(path);
         if (model.Plan.Batch == BatchMode.ConcurrentSingle || batch == 1) return (original, "original model");
-        try
-        {
-            using var session = new InferenceSession(original);
-            var dims = session.InputMetadata[model.Plan.InputName].Dimensions;
-            if (dims.Length == 0 || dims[0] <= 0) return (original, "original model");
-        }
-        catch (OnnxRuntimeException)
-        {
-        }
-        return (model.RewrittenModel, "rewritten model, class output only (the original's batch is fixed at 1)");
+        var proto = Onnx.ModelProto.Parser.ParseFrom(original);
+        var input = proto.Graph.Input.First(i => i.Name == model.Plan.InputName);
+        var dims = input.Type?.TensorType?.Shape?.Dim;
+        if (dims is not { Count: > 0 } || dims[0].DimValue <= 0) return (original, "original model");
+        var freed = GraphRewriter.ExposeLayers(proto, model.Plan.InputName, model.Plan.OutputName, [], symbolicBatch: true);
+        return (Google.Protobuf.MessageExtensions.ToByteArray(freed), "original model, batch dimension made symbolic");
     }
 
     private static void RunRaw(ModelRunner raw, float[] tensors, int images, int slot, PassOptions opt)
