@@ -25,9 +25,12 @@ internal static class BenchCommand
         var factor = new Option<int>("--memory-factor") { Description = "Memory is compared at N and at this multiple of N", DefaultValueFactory = _ => 10 };
         var rounds = new Option<int>("--rounds") { Description = "Alternating rounds of raw and pass timing; the best of each is kept", DefaultValueFactory = _ => 5 };
         var torch = new Option<string?>("--torch") { Description = "Eager-mode comparison script to run on the same images (bench/torch_hooks.py)" };
+        var decodeThreads = new Option<int>("--decode-threads") { Description = "Decode threads, when not those of --threads (0 = the pass chooses)" };
+        var spinning = new Option<bool?>("--spinning") { Description = "Let ONNX Runtime threads spin between kernels (default: the pass chooses, off)" };
+        var work = new Option<string?>("--work") { Description = "Folder for the generated photos, kept after the run (default: a temporary folder, removed)" };
         var cmd = new Command("bench", "Throughput and memory of the activation pass against raw inference, measured in one run")
         {
-            model, images, batch, threads, size, json, factor, rounds, torch,
+            model, images, batch, threads, decodeThreads, spinning, size, json, factor, rounds, torch, work,
         };
         cmd.SetAction((parse, ct) =>
         {
@@ -38,7 +41,8 @@ internal static class BenchCommand
             if (!File.Exists(path)) throw new AuditInputException(path, "model file not found");
             bool asJson = parse.GetValue(json);
             var options = new BenchOptions(path, n, parse.GetValue(batch), parse.GetValue(threads), w ?? 500, h ?? 375,
-                Math.Max(1, parse.GetValue(factor)), Math.Max(1, parse.GetValue(rounds)), TorchScript: parse.GetValue(torch));
+                Math.Max(1, parse.GetValue(factor)), Math.Max(1, parse.GetValue(rounds)), TorchScript: parse.GetValue(torch),
+                DecodeThreads: parse.GetValue(decodeThreads), Spinning: parse.GetValue(spinning), WorkDirectory: parse.GetValue(work));
             var result = ThroughputBench.Run(options, line => Console.Error.WriteLine(line), ct);
             Console.Out.Write(ToText(result));
             if (asJson) Console.Out.WriteLine(ToJson(result));

@@ -14,6 +14,8 @@ public sealed record BenchOptions(
     string? WorkDirectory = null,
     string? TorchScript = null,
     double MinPhaseSeconds = 1.5,
+    int DecodeThreads = 0,
+    bool? Spinning = null,
     string Python = "/usr/bin/python3");
 
 /// <summary>Images per second of one phase, the seconds it took, and the process's CPU milliseconds per image.</summary>
@@ -58,7 +60,10 @@ public sealed record BenchResult(
 
     public string? TorchNote { get; init; }
 
-    public double? WholeVsTorch => TorchImagesPerSecond is > 0 ? Whole.ImagesPerSecond / TorchImagesPerSecond : null;
+    /// <summary>Median over the rounds of whole pass / script, each round's own.</summary>
+    public double? TorchRatio { get; init; }
+
+    public double? WholeVsTorch => TorchRatio;
 
     public double PassRatio => Ratios.Pass;
 

@@ -31,7 +31,7 @@ public static class ThroughputBench
     private static BenchResult Measure(BenchOptions o, string work, Action<string> log, CancellationToken ct)
     {
         var model = ModelIntake.Load(o.ModelPath);
-        var options = new PassOptions { BatchSize = o.BatchSize, InferenceThreads = o.Threads, DecodeThreads = o.Threads, SpillDirectory = Path.Combine(work, "spill") };
+        var options = new PassOptions { BatchSize = o.BatchSize, InferenceThreads = o.Threads, DecodeThreads = o.DecodeThreads > 0 ? o.DecodeThreads : o.Threads, Spinning = o.Spinning, SpillDirectory = Path.Combine(work, "spill") };
         using var pass = new ActivationPass(model.Plan, model.RewrittenModel, options);
         var opt = pass.Options;
         int slot = pass.Preprocessor.SlotLength, units = pass.Layers.Sum(l => l.Count);
@@ -43,8 +43,12 @@ public static class ThroughputBench
         var table = BenchImages.Table(files, o.Images, work);
         var big = BenchImages.Table(files, o.Images * Math.Max(1, o.MemoryFactor), work);
 
+        long loaded = PeakMemory.CurrentBytes();
+        PeakMemory.Trim();
+        long trimmed = PeakMemory.CurrentBytes();
         // Warm-up: JIT, ORT arenas, thread pools.
         pass.Run(BenchImages.Table(files, Math.Min(o.Images, opt.BatchSize * 2), work), null, ct);
+        log($"resident: {loaded >> 20} MB after the intake, {trimmed >> 20} MB after trimming, {PeakMemory.CurrentBytes() >> 20} MB after a warm-up pass");
 
         PeakMemory.Reset();
         var first = Timed(o.Images, () => pass.Run(table, null, ct));
@@ -73,6 +77,9 @@ public static class ThroughputBench
         RunRaw(raw, tensors, Math.Min(o.Images, opt.BatchSize * 2), slot, opt);
         pass.RunTensors(tensors, Math.Min(o.Images, opt.BatchSize * 2), null, ct);
         var rounds = new List<(PhaseRate Decode, PhaseRate Raw, PhaseRate Pass, PhaseRate Whole)>();
+        var arch = o.TorchScript is null ? null : TorchBaseline.ArchitectureOf(o.ModelPath);
+        var torchRuns = new List<(double Whole, double Ratio)>();
+        string? torchNote = o.TorchScript is null ? null : arch is null ? "no eager-mode rebuild of this architecture" : null;
         for (int r = 0; r < Math.Max(1, o.Rounds); r++)
         {
             // Every phase once per round, back to back, so load from other processes hits them alike;
@@ -85,6 +92,14 @@ public static class ThroughputBench
             rounds.Add(round);
             log($"round {r + 1}: decode {round.Item1.ImagesPerSecond:0.0}, raw {round.Item2.ImagesPerSecond:0.0}, pass {round.Item3.ImagesPerSecond:0.0}, " +
                 $"whole {round.Item4.ImagesPerSecond:0.0} images/s; load {LoadAverage():0.0}");
+            if (arch is not null)
+            {
+                // The script runs in its own process right after the round's whole pass, on the same files.
+                var (ips, note) = TorchBaseline.Run(o.Python, o.TorchScript!, arch, Path.Combine(work, "images"), o.PhotoWidth, o.PhotoHeight, opt.InferenceThreads, opt.BatchSize, ct);
+                torchNote = note;
+                if (ips is { } t) torchRuns.Add((t, round.Item4.ImagesPerSecond / t));
+                log($"round {r + 1}: eager-mode script {(ips is { } v ? $"{v:0.0} images/s" : "not run")} ({note})");
+            }
             ct.ThrowIfCancellationRequested();
         }
         static double Bound(PhaseRate d, PhaseRate r) => 1 / (1 / d.ImagesPerSecond + 1 / r.ImagesPerSecond);
@@ -97,23 +112,14 @@ public static class ThroughputBench
         var passRate = MedianRate(rounds.Select(x => x.Pass));
         var whole = MedianRate(rounds.Select(x => x.Whole));
         double bound = Median(rounds.Select(x => Bound(x.Decode, x.Raw)));
-        double? torch = null;
-        string? torchNote = null;
-        if (o.TorchScript is not null)
-        {
-            var arch = TorchBaseline.ArchitectureOf(o.ModelPath);
-            (torch, torchNote) = arch is null
-                ? (null, "no eager-mode rebuild of this architecture")
-                : TorchBaseline.Run(o.Python, o.TorchScript, arch, Path.Combine(work, "images"), o.PhotoWidth, o.PhotoHeight, opt.InferenceThreads, opt.BatchSize, ct);
-            log($"eager-mode script: {(torch is { } t ? $"{t:0.0} images/s" : "not run")} ({torchNote})");
-        }
         return new BenchResult(
             Path.GetFileName(o.ModelPath), MachineName(), Environment.ProcessorCount, o.Images, opt.BatchSize, opt.InferenceThreads, opt.DecodeThreads,
             model.Plan.Batch == BatchMode.Batched ? "batched" : "concurrent-single", units, $"{o.PhotoWidth}x{o.PhotoHeight}", rawSource,
             rawRate, passRate, whole, decode, bound, ratios, peakN, peakBig, big.Items.Count, wholeBig, resident,
             model.Plan.ClassCount * sizeof(float) + sizeof(int) + sizeof(bool), LoadAverage(), rounds.Count)
         {
-            TorchImagesPerSecond = torch,
+            TorchImagesPerSecond = torchRuns.Count == 0 ? null : Median(torchRuns.Select(x => x.Whole)),
+            TorchRatio = torchRuns.Count == 0 ? null : Median(torchRuns.Select(x => x.Ratio)),
             TorchNote = torchNote,
         };
     }
