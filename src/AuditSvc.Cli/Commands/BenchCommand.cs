@@ -28,9 +28,10 @@ internal static class BenchCommand
         var decodeThreads = new Option<int>("--decode-threads") { Description = "Decode threads, when not those of --threads (0 = the pass chooses)" };
         var spinning = new Option<bool?>("--spinning") { Description = "Let ONNX Runtime threads spin between kernels (default: the pass chooses, off)" };
         var work = new Option<string?>("--work") { Description = "Folder for the generated photos, kept after the run (default: a temporary folder, removed)" };
+        var minSeconds = new Option<double>("--min-seconds") { Description = "Each timed phase repeats the set until this many seconds have passed", DefaultValueFactory = _ => 1.5 };
         var cmd = new Command("bench", "Throughput and memory of the activation pass against raw inference, measured in one run")
         {
-            model, images, batch, threads, decodeThreads, spinning, size, json, factor, rounds, torch, work,
+            model, images, batch, threads, decodeThreads, spinning, size, json, factor, rounds, torch, work, minSeconds,
         };
         cmd.SetAction((parse, ct) =>
         {
@@ -42,7 +43,8 @@ internal static class BenchCommand
             bool asJson = parse.GetValue(json);
             var options = new BenchOptions(path, n, parse.GetValue(batch), parse.GetValue(threads), w ?? 500, h ?? 375,
                 Math.Max(1, parse.GetValue(factor)), Math.Max(1, parse.GetValue(rounds)), TorchScript: parse.GetValue(torch),
-                DecodeThreads: parse.GetValue(decodeThreads), Spinning: parse.GetValue(spinning), WorkDirectory: parse.GetValue(work));
+                DecodeThreads: parse.GetValue(decodeThreads), Spinning: parse.GetValue(spinning), WorkDirectory: parse.GetValue(work),
+                MinPhaseSeconds: Math.Max(0, parse.GetValue(minSeconds)));
             var result = ThroughputBench.Run(options, line => Console.Error.WriteLine(line), ct);
             Console.Out.Write(ToText(result));
             if (asJson) Console.Out.WriteLine(ToJson(result));
