@@ -67,8 +67,8 @@ internal static class BenchCommand
         w.WriteLine($"shared bound {r.SharedBound,8:0.0} images/s  whole/bound {r.WholeVsBound:0.000}  (1 / (1/decode + 1/raw))");
         if (r.TorchImagesPerSecond is { } t) w.WriteLine($"eager script {t,8:0.0} images/s  whole/script {r.WholeVsTorch:0.00}");
         else if (r.TorchNote is not null) w.WriteLine($"eager script not run: {r.TorchNote}");
-        w.WriteLine($"memory       peak {Mb(r.PeakBytesAtN)} at N, {Mb(r.PeakBytesAtFactorN)} at {r.FactorImages} ({r.MemoryGrowth * 100:+0.0;-0.0}%); " +
-            $"{r.WholeAtFactorN.ImagesPerSecond:0.0} images/s there");
+        w.WriteLine($"memory       peak {Mb(r.PeakBytesAtN)} at N (first run), {Mb(r.PeakBytesAtFactorN)} at {r.FactorImages}, {Mb(r.PeakBytesAtNAfter)} at N again: " +
+            $"{r.MemoryGrowth * 100:+0.0;-0.0}% against N again ({r.MemoryGrowthFromFirst * 100:+0.0;-0.0}% against the first); {r.WholeAtFactorN.ImagesPerSecond:0.0} images/s at {r.FactorImages}");
         w.WriteLine($"resident     after repeated passes: {string.Join(", ", r.ResidentAfterRuns.Select(Mb))}");
         w.WriteLine($"per image    {r.ProbabilityBytesPerImage} bytes of probabilities, prediction and flag");
         return w.ToString();
@@ -88,7 +88,7 @@ internal static class BenchCommand
         ["pass_ratio"] = Round(r.PassRatio), ["whole_ratio"] = Round(r.WholeRatio), ["whole_vs_bound"] = Round(r.WholeVsBound),
         ["torch_ips"] = r.TorchImagesPerSecond is { } t ? Round(t) : null, ["whole_vs_torch"] = r.WholeVsTorch is { } v ? Round(v) : null,
         ["peak_bytes_n"] = r.PeakBytesAtN, ["peak_bytes_factor_n"] = r.PeakBytesAtFactorN, ["factor_images"] = r.FactorImages,
-        ["memory_growth"] = Round(r.MemoryGrowth), ["resident_after_runs"] = r.ResidentAfterRuns,
+        ["peak_bytes_n_after"] = r.PeakBytesAtNAfter, ["memory_growth"] = Round(r.MemoryGrowth), ["memory_growth_from_first"] = Round(r.MemoryGrowthFromFirst), ["resident_after_runs"] = r.ResidentAfterRuns,
         ["probability_bytes_per_image"] = r.ProbabilityBytesPerImage, ["load_average"] = Round(r.LoadAverage),
     });
 

@@ -47,6 +47,7 @@ public sealed record BenchResult(
     double SharedBound,
     Ratios Ratios,
     long PeakBytesAtN,
+    long PeakBytesAtNAfter,
     long PeakBytesAtFactorN,
     int FactorImages,
     PhaseRate WholeAtFactorN,
@@ -71,5 +72,9 @@ public sealed record BenchResult(
 
     public double WholeVsBound => Ratios.WholeVsBound;
 
-    public double MemoryGrowth => PeakBytesAtN <= 0 ? double.NaN : (double)PeakBytesAtFactorN / PeakBytesAtN - 1;
+    /// <summary>Peak at 10×N against the peak of the N run that follows it (both past the warm-up plateau).</summary>
+    public double MemoryGrowth => PeakBytesAtNAfter <= 0 ? double.NaN : (double)PeakBytesAtFactorN / PeakBytesAtNAfter - 1;
+
+    /// <summary>Peak at 10×N against the first N run (which may still be below the plateau).</summary>
+    public double MemoryGrowthFromFirst => PeakBytesAtN <= 0 ? double.NaN : (double)PeakBytesAtFactorN / PeakBytesAtN - 1;
 }

@@ -21,7 +21,7 @@ public class ThroughputBenchTests
         Assert.Equal(240, r.Units);
         foreach (var phase in new[] { r.Raw, r.Pass, r.Whole, r.Decode, r.WholeAtFactorN })
             Assert.True(phase.ImagesPerSecond > 0 && double.IsFinite(phase.ImagesPerSecond));
-        Assert.True(r.PeakBytesAtN > 0 && r.PeakBytesAtFactorN > 0);
+        Assert.True(r.PeakBytesAtN > 0 && r.PeakBytesAtFactorN > 0 && r.PeakBytesAtNAfter > 0);
         Assert.Equal(2, r.ResidentAfterRuns.Count);
         // One round: the ratios are that round's own.
         Assert.Equal(r.Pass.ImagesPerSecond / r.Raw.ImagesPerSecond, r.PassRatio, 9);
