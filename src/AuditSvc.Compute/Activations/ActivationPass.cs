@@ -28,7 +28,7 @@ public sealed class ActivationPass : IDisposable
     {
         var single = plan.Batch == BatchMode.ConcurrentSingle;
         var probe = new Preprocessor(plan.Recipe);
-        Options = options.Resolve(probe.SlotLength, single);
+        Options = options.Resolve(probe.SlotLength);
         int threads = single ? 1 : Options.InferenceThreads;
         bool inGraph = Options.ReduceInGraph ?? true;
         _runner = inGraph

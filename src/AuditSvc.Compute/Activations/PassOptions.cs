@@ -32,7 +32,7 @@ public sealed record PassOptions
     public bool? ReduceInGraph { get; init; }
 
     /// <summary>Concrete settings for a model whose input slot holds <paramref name="slotFloats"/> floats.</summary>
-    public PassOptions Resolve(int slotFloats, bool singleRuns = false) => Resolve(slotFloats, singleRuns, Environment.ProcessorCount);
+    public PassOptions Resolve(int slotFloats) => Resolve(slotFloats, Environment.ProcessorCount);
 
     /// <summary>
     /// Concrete settings on a machine with <paramref name="cores"/> cores. Batch: about 8 MB of input per run
@@ -40,7 +40,7 @@ public sealed record PassOptions
     /// for large inputs. Inference takes every core (ONNX Runtime's kernels scale with them) and so does decoding:
     /// the bounded queue stops decoders running ahead, and with spinning off an idle side yields its core.
     /// </summary>
-    public PassOptions Resolve(int slotFloats, bool singleRuns, int cores)
+    public PassOptions Resolve(int slotFloats, int cores)
     {
         cores = Math.Max(1, cores);
         int batch = BatchSize > 0 ? BatchSize : Math.Clamp((int)BitOperations.RoundDownPowerOf2((uint)Math.Max(1, (2 << 20) / Math.Max(1, slotFloats))), 1, 64);

@@ -143,13 +143,13 @@ public class FastPathTests
     public void Resolve_DefaultOptions_ChooseBatchBySlotSpinningOffMaximaInGraph()
     {
         // 224×224×3 floats: 8 MB of input per run is 13.9 images, rounded down to a power of two.
-        var big = new PassOptions().Resolve(3 * 224 * 224, singleRuns: false, cores: 2);
+        var big = new PassOptions().Resolve(3 * 224 * 224, cores: 2);
         Assert.Equal(8, big.BatchSize);
         Assert.Equal(2, big.InferenceThreads);
         Assert.Equal(2, big.DecodeThreads);
         Assert.False(big.Spinning);
         Assert.True(big.ReduceInGraph);
-        Assert.Equal(64, new PassOptions().Resolve(3 * 64 * 64, singleRuns: false, cores: 2).BatchSize);
-        Assert.Equal(5, new PassOptions { BatchSize = 5, Spinning = true }.Resolve(12, false, 2).BatchSize);
+        Assert.Equal(64, new PassOptions().Resolve(3 * 64 * 64, cores: 2).BatchSize);
+        Assert.Equal(5, new PassOptions { BatchSize = 5, Spinning = true }.Resolve(12, 2).BatchSize);
     }
 }
