@@ -9,7 +9,9 @@ namespace AuditSvc.Compute.Activations;
 /// maximum over H×W ([N,C], float) and the first position holding it ([N,C], int64), computed by ONNX Runtime's
 /// own ReduceMax and ArgMax. The activation maps then stay inside the runtime, whose memory planner reuses their
 /// buffers as it does for the plain model, instead of being handed out in full for every batch.
-/// 2-D layers stay as they are (their value is the score). <see cref="ChannelMax"/> is the reference it is tested against.
+/// 2-D layers stay as they are (their value is the score). <see cref="ChannelMax"/> is the reference it is tested against;
+/// they agree on finite maps (first index on ties); on a map holding NaN the runtime's ArgMax rules apply instead of
+/// ChannelMax's "NaN is lowest", which only matters for a model that is already broken.
 /// </summary>
 public static class ReducedGraph
 {
