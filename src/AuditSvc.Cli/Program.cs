@@ -12,4 +12,5 @@ root.Subcommands.Add(WorkerCommand.Create());
 root.Subcommands.Add(MigrateCommand.Create());
 root.Subcommands.Add(KeysCommand.Create());
 root.Subcommands.Add(GateCommand.Create());
+root.Subcommands.Add(BenchCommand.Create());
 return await ExitCodes.RunAsync(root, args);

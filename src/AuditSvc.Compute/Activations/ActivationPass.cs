@@ -19,6 +19,7 @@ public readonly record struct PassProgress(int Done, int Total, double ImagesPer
 public sealed class ActivationPass : IDisposable
 {
     private readonly ModelRunner _runner;
+    private readonly Lazy<ModelRunner> _fullRunner;
     private readonly Preprocessor _pre;
     private readonly IReadOnlyList<LayerSlice> _layers;
     private readonly int _units;
@@ -28,7 +29,13 @@ public sealed class ActivationPass : IDisposable
         var single = plan.Batch == BatchMode.ConcurrentSingle;
         var probe = new Preprocessor(plan.Recipe);
         Options = options.Resolve(probe.SlotLength);
-        _runner = new ModelRunner(plan, onnx, single ? 1 : Options.InferenceThreads);
+        int threads = single ? 1 : Options.InferenceThreads;
+        bool inGraph = Options.ReduceInGraph ?? true;
+        _runner = inGraph
+            ? new ModelRunner(plan, ReducedGraph.Rewrite(onnx, plan.ReadLayers), threads, Options.Spinning ?? false, reduced: true)
+            : new ModelRunner(plan, onnx, threads, Options.Spinning ?? false);
+        // Interventions read full maps of single units; their session is made only when they ask.
+        _fullRunner = inGraph ? new Lazy<ModelRunner>(() => new ModelRunner(plan, onnx, threads, Options.Spinning ?? false)) : new Lazy<ModelRunner>(_runner);
         _pre = new Preprocessor(plan.Recipe) { Channels = _runner.Channels };
         var slices = new List<LayerSlice>();
         int first = 0;
@@ -43,40 +50,24 @@ public sealed class ActivationPass : IDisposable
 
     public PassOptions Options { get; }
 
-    public ModelRunner Runner => _runner;
+    /// <summary>A runner whose layer outputs are the full activation maps (for runs that read single units).</summary>
+    public ModelRunner Runner => _fullRunner.Value;
 
     public Preprocessor Preprocessor => _pre;
 
     public IReadOnlyList<LayerSlice> Layers => _layers;
 
-    private sealed class Batch(int capacity, int slot, int units)
-    {
-        public readonly float[] Input = new float[capacity * slot];
-        public readonly int[] Items = new int[capacity];
-        public readonly bool[] Ok = new bool[capacity];
-        public readonly string?[] Error = new string?[capacity];
-        public readonly float[] Scores = new float[capacity * units];
-        public readonly short[] PeakY = new short[capacity * units];
-        public readonly short[] PeakX = new short[capacity * units];
-        public int Count;
-    }
-
     /// <summary>Runs the pass over items [start, start + count) of the table (the whole table by default).</summary>
     public ActivationResult Run(ItemTable table, IProgress<PassProgress>? progress, CancellationToken ct, int start = 0, int count = -1)
     {
         if (count < 0) count = table.Items.Count - start;
-        int n = table.Items.Count, k = _runner.Plan.ClassCount;
-        int topN = Options.TopN > 0 ? Options.TopN : TopN.DefaultN(n);
-        var store = new ScoreStore(n, _units, memoryLimitBytes: Options.ScoreMemoryLimitBytes, spillDir: Options.SpillDirectory);
-        var top = new TopN(_units, topN);
-        var scored = new bool[n];
-        var predicted = Enumerable.Repeat(-1, n).ToArray();
-        var probs = new float[(long)n * k];
-        var problems = new List<PassProblem>();
+        int n = table.Items.Count;
+        var sink = NewCollector(n, item => table.Items[item].RelativePath);
         int b = Options.BatchSize, slot = _pre.SlotLength;
-        var queue = Channel.CreateBounded<Batch>(new BoundedChannelOptions(2) { SingleReader = true, SingleWriter = true });
-        var free = Channel.CreateUnbounded<Batch>();
-        for (int i = 0; i < 4; i++) free.Writer.TryWrite(new Batch(b, slot, _units));
+        // Two decoded batches wait at most: enough to keep inference fed, bounded so memory does not grow with N.
+        var queue = Channel.CreateBounded<PassBatch>(new BoundedChannelOptions(2) { SingleReader = true, SingleWriter = true });
+        var free = Channel.CreateUnbounded<PassBatch>();
+        for (int i = 0; i < 4; i++) free.Writer.TryWrite(new PassBatch(b, slot, _units));
         var clock = Stopwatch.StartNew();
         using var cts = CancellationTokenSource.CreateLinkedTokenSource(ct);
         var producer = Task.Run(async () =>
@@ -92,20 +83,7 @@ public sealed class ActivationPass : IDisposable
                     {
                         var item = table.Items[s0 + i];
                         batch.Items[i] = item.Index;
-                        var dest = batch.Input.AsSpan(i * slot, slot);
-                        try
-                        {
-                            using var image = _pre.Load(item.Path);
-                            _pre.Write(image, dest);
-                            batch.Ok[i] = true;
-                            batch.Error[i] = null;
-                        }
-                        catch (Exception e) when (e is SixLabors.ImageSharp.UnknownImageFormatException or SixLabors.ImageSharp.InvalidImageContentException or IOException or NotSupportedException or UnauthorizedAccessException)
-                        {
-                            dest.Clear();
-                            batch.Ok[i] = false;
-                            batch.Error[i] = $"not decodable at pass time ({e.GetType().Name}: {e.Message.Split('\n')[0]})";
-                        }
+                        Decode(item.Path, batch, i);
                     });
                     await queue.Writer.WriteAsync(batch, cts.Token);
                 }
@@ -122,39 +100,11 @@ public sealed class ActivationPass : IDisposable
         {
             foreach (var batch in ReadAll(queue.Reader, cts.Token))
             {
-                Infer(batch);
-                for (int i = 0; i < batch.Count; i++)
-                {
-                    int item = batch.Items[i];
-                    if (!batch.Ok[i])
-                    {
-                        problems.Add(new PassProblem(item, table.Items[item].RelativePath, batch.Error[i]!));
-                        continue;
-                    }
-                    scored[item] = true;
-                    var row = batch.Scores.AsSpan(i * _units, _units);
-                    store.WriteRow(item, row);
-                    for (int u = 0; u < _units; u++)
-                        if (row[u] >= top.Threshold(u))
-                            top.Offer(u, new Peak(item, row[u], batch.PeakY[i * _units + u], batch.PeakX[i * _units + u]));
-                    var p = probs.AsSpan(item * k, k);
-                    int best = 0;
-                    for (int c = 1; c < k; c++) if (p[c] > p[best]) best = c;
-                    predicted[item] = best;
-                }
+                InferAndCollect(batch, batch.Input.AsMemory(0, batch.Count * slot), sink);
                 done += batch.Count;
-                store.SpillIfNeeded(start + done);
+                sink.Store.SpillIfNeeded(start + done);
                 progress?.Report(new PassProgress(done, count, done / Math.Max(1e-9, clock.Elapsed.TotalSeconds)));
                 free.Writer.TryWrite(batch);
-
-                void Infer(Batch bt)
-                {
-                    if (_runner.Plan.Batch == BatchMode.ConcurrentSingle)
-                        Parallel.For(0, bt.Count, new ParallelOptions { MaxDegreeOfParallelism = Options.InferenceThreads }, i =>
-                            _runner.Run(bt.Input.AsMemory(i * slot, slot), 1, (cls, layers) => Reduce(bt, i, 1, cls, layers, probs)));
-                    else
-                        _runner.Run(bt.Input.AsMemory(0, bt.Count * slot), bt.Count, (cls, layers) => Reduce(bt, 0, bt.Count, cls, layers, probs));
-                }
             }
         }
         finally
@@ -163,42 +113,99 @@ public sealed class ActivationPass : IDisposable
             try { producer.Wait(CancellationToken.None); } catch (AggregateException) { }
         }
         ct.ThrowIfCancellationRequested();
-        return new ActivationResult(_layers, store, top, scored, predicted, probs, k, problems);
+        return sink.Result(_layers);
     }
 
-    private static IEnumerable<Batch> ReadAll(ChannelReader<Batch> reader, CancellationToken ct)
+    /// <summary>
+    /// Runs the pass on input tensors already decoded and preprocessed: <paramref name="images"/> NCHW slots of
+    /// <see cref="Imaging.Preprocessor.SlotLength"/> floats each, item i in slot i. Model runs read the
+    /// caller's memory in place; the reduce, top-n and scores matrix are those of <see cref="Run"/>.
+    /// </summary>
+    public ActivationResult RunTensors(Memory<float> inputs, int images, IProgress<PassProgress>? progress, CancellationToken ct)
+    {
+        int slot = _pre.SlotLength, b = Options.BatchSize;
+        if (inputs.Length < (long)images * slot)
+            throw new ArgumentException($"{images} images need {(long)images * slot} floats, got {inputs.Length}", nameof(inputs));
+        var sink = NewCollector(images, item => $"tensor {item}");
+        var batch = new PassBatch(b, 0, _units);
+        var clock = Stopwatch.StartNew();
+        for (int s = 0; s < images; s += b)
+        {
+            ct.ThrowIfCancellationRequested();
+            batch.Count = Math.Min(b, images - s);
+            for (int i = 0; i < batch.Count; i++) { batch.Items[i] = s + i; batch.Ok[i] = true; }
+            InferAndCollect(batch, inputs.Slice(s * slot, batch.Count * slot), sink);
+            sink.Store.SpillIfNeeded(s + batch.Count);
+            progress?.Report(new PassProgress(s + batch.Count, images, (s + batch.Count) / Math.Max(1e-9, clock.Elapsed.TotalSeconds)));
+        }
+        return sink.Result(_layers);
+    }
+
+    private PassCollector NewCollector(int items, Func<int, string> fileOf) =>
+        new(items, _units, _runner.Plan.ClassCount, Options.TopN > 0 ? Options.TopN : TopN.DefaultN(items), Options, fileOf);
+
+    private void Decode(string path, PassBatch batch, int i)
+    {
+        var dest = batch.Input.AsSpan(i * _pre.SlotLength, _pre.SlotLength);
+        try
+        {
+            using var image = _pre.Load(path);
+            _pre.Write(image, dest);
+            batch.Ok[i] = true;
+            batch.Error[i] = null;
+        }
+        catch (Exception e) when (e is SixLabors.ImageSharp.UnknownImageFormatException or SixLabors.ImageSharp.InvalidImageContentException or IOException or NotSupportedException or UnauthorizedAccessException)
+        {
+            dest.Clear();
+            batch.Ok[i] = false;
+            batch.Error[i] = $"not decodable at pass time ({e.GetType().Name}: {e.Message.Split('\n')[0]})";
+        }
+    }
+
+    private void InferAndCollect(PassBatch batch, Memory<float> input, PassCollector sink)
+    {
+        int slot = _pre.SlotLength;
+        var probs = sink.Probabilities;
+        if (_runner.Plan.Batch == BatchMode.ConcurrentSingle)
+            Parallel.For(0, batch.Count, new ParallelOptions { MaxDegreeOfParallelism = Options.InferenceThreads }, i =>
+                _runner.Run(input.Slice(i * slot, slot), 1, (cls, layers) => Reduce(batch, i, 1, cls, layers, probs, parallel: false)));
+        else
+            _runner.Run(input, batch.Count, (cls, layers) => Reduce(batch, 0, batch.Count, cls, layers, probs, Options.InferenceThreads > 1));
+        sink.Collect(batch);
+    }
+
+    private static IEnumerable<PassBatch> ReadAll(ChannelReader<PassBatch> reader, CancellationToken ct)
     {
         while (reader.WaitToReadAsync(ct).AsTask().GetAwaiter().GetResult())
             while (reader.TryRead(out var batch)) yield return batch;
     }
 
     /// <summary>Unit scores and peaks of images [offset, offset + count) of a batch, and their class probabilities.</summary>
-    private void Reduce(Batch batch, int offset, int count, ReadOnlySpan<float> cls, IReadOnlyList<OrtValue> layers, float[] probs)
+    private void Reduce(PassBatch batch, int offset, int count, ReadOnlySpan<float> cls, IReadOnlyList<OrtValue> layers, float[] probs, bool parallel)
     {
         int k = _runner.Plan.ClassCount;
         for (int i = 0; i < count; i++)
         {
-            var dest = probs.AsSpan(batch.Items[offset + i] * k, k);
+            var dest = probs.AsSpan((int)((long)batch.Items[offset + i] * k), k);
             cls.Slice(i * k, k).CopyTo(dest);
             if (!_runner.Plan.OutputIsProbabilities) Softmax(dest);
         }
-        for (int l = 0; l < _layers.Count; l++)
+        if (_runner.Reduced)
         {
-            var info = _layers[l].Layer;
-            var data = layers[l].GetTensorDataAsSpan<float>();
-            int c = info.Channels, plane = data.Length / (count * c), w = info.Rank == 2 ? 1 : info.Width;
-            for (int i = 0; i < count; i++)
+            int o = 0;
+            foreach (var slice in _layers)
             {
-                int rowBase = (offset + i) * _units + _layers[l].FirstUnit;
-                for (int ch = 0; ch < c; ch++)
+                if (slice.Layer.Rank == 4)
                 {
-                    var (max, index) = ChannelMax.Find(data.Slice((i * c + ch) * plane, plane));
-                    batch.Scores[rowBase + ch] = max;
-                    batch.PeakY[rowBase + ch] = (short)(index / w);
-                    batch.PeakX[rowBase + ch] = (short)(index % w);
+                    LayerReduce.FromGraph(slice, layers[o], layers[o + 1], count, offset, _units, batch.Scores, batch.PeakY, batch.PeakX);
+                    o += 2;
                 }
+                else LayerReduce.Run(slice, layers[o++], count, offset, _units, batch.Scores, batch.PeakY, batch.PeakX, parallel: false);
             }
+            return;
         }
+        for (int l = 0; l < _layers.Count; l++)
+            LayerReduce.Run(_layers[l], layers[l], count, offset, _units, batch.Scores, batch.PeakY, batch.PeakX, parallel);
     }
 
     public static void Softmax(Span<float> v)
@@ -210,5 +217,9 @@ public sealed class ActivationPass : IDisposable
         for (int i = 0; i < v.Length; i++) v[i] /= sum;
     }
 
-    public void Dispose() => _runner.Dispose();
+    public void Dispose()
+    {
+        if (_fullRunner.IsValueCreated && _fullRunner.Value != _runner) _fullRunner.Value.Dispose();
+        _runner.Dispose();
+    }
 }

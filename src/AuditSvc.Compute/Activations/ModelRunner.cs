@@ -15,7 +15,9 @@ public sealed class ModelRunner : IDisposable
     private readonly string[] _inputNames;
     private readonly string[] _outputNames;
 
-    public ModelRunner(ModelPlan plan, byte[] onnx, int threads)
+    /// <param name="reduced">The model was rewritten by <see cref="ReducedGraph.Rewrite"/>: its layer outputs are
+    /// [max, argmax] pairs for 4-D layers (see <see cref="ReducedGraph.OutputNames"/>).</param>
+    public ModelRunner(ModelPlan plan, byte[] onnx, int threads, bool spinning = true, bool reduced = false)
     {
         Plan = plan;
         using var options = new SessionOptions
@@ -25,13 +27,19 @@ public sealed class ModelRunner : IDisposable
             ExecutionMode = ExecutionMode.ORT_SEQUENTIAL,
             GraphOptimizationLevel = GraphOptimizationLevel.ORT_ENABLE_ALL,
         };
+        // Spinning keeps a core busy between kernels; when decoders share the cores it takes their time.
+        options.AddSessionConfigEntry("session.intra_op.allow_spinning", spinning ? "1" : "0");
         _session = new InferenceSession(onnx, options);
         _inputNames = [plan.InputName];
-        _outputNames = [plan.OutputName, .. plan.ReadLayers.Select(l => l.Name)];
+        _outputNames = [plan.OutputName, .. reduced ? ReducedGraph.OutputNames(plan.ReadLayers) : plan.ReadLayers.Select(l => l.Name)];
+        Reduced = reduced;
         Channels = (int)(_session.InputMetadata[plan.InputName].Dimensions is { Length: 4 } d && d[1] > 0 ? d[1] : 3);
     }
 
     public ModelPlan Plan { get; }
+
+    /// <summary>True when the layer outputs are the in-graph maxima and arg-maxima, not the full maps.</summary>
+    public bool Reduced { get; }
 
     /// <summary>Input channels (3 for colour models, 1 for grey).</summary>
     public int Channels { get; }

@@ -63,7 +63,8 @@ public sealed class ScoreStore : IUnitScores, IDisposable
         {
             if (_memoryBytes <= MemoryLimitBytes) return;
             Directory.CreateDirectory(_spillDir);
-            foreach (var block in _memory.Keys.Where(b => (b + 1) * RowsPerBlock <= completeBelowItem).ToList())
+            // The last block is shorter than the others: it is complete once the items end.
+            foreach (var block in _memory.Keys.Where(b => Math.Min((b + 1) * RowsPerBlock, ItemCount) <= completeBelowItem).ToList())
             {
                 var data = _memory[block];
                 File.WriteAllBytes(BlockPath(block), MemoryMarshal.AsBytes(data.AsSpan()).ToArray());

@@ -98,7 +98,12 @@ public static class AuditPipeline
                 c.Top.Take(AuditAnalysis.ShownExemplars).Select(p => AuditAssembler.ExemplarOf(table, model.Plan, c.Layer.Layer, p, -1)).ToList(), c.ExplainedBy));
         }
         var inputs = new AuditInputs(table, model.Plan, act, analysis, interventions, candidates, policy, passSeconds, clock.Elapsed.TotalSeconds, runs.Runs,
-            pass.Options.BatchSize, DateTimeOffset.UtcNow);
+            pass.Options.BatchSize, DateTimeOffset.UtcNow)
+        {
+            InferenceThreads = pass.Options.InferenceThreads,
+            DecodeThreads = pass.Options.DecodeThreads,
+            Reduce = pass.Options.ReduceInGraph == false ? "full-maps" : "in-graph",
+        };
         stage?.Invoke(AuditStage.Done, "verdict");
         return AuditAssembler.Build(inputs);
     }

@@ -20,7 +20,14 @@ public sealed record AuditInputs(
     double InterventionSeconds,
     int InterventionRuns,
     int BatchSize,
-    DateTimeOffset CreatedAt);
+    DateTimeOffset CreatedAt)
+{
+    public int InferenceThreads { get; init; }
+
+    public int DecodeThreads { get; init; }
+
+    public string? Reduce { get; init; }
+}
 
 /// <summary>Turns the engine's results into the audit document: measures, leakage, verdict, findings, cautions.</summary>
 public static class AuditAssembler
@@ -121,7 +128,12 @@ public static class AuditAssembler
         int scored = x.Act.Scored.Count(s => s);
         var problems = x.Act.Problems.Select(p => new ProblemRow(x.Table.Items[p.Item].Row, p.File, p.Reason)).ToList();
         return new PassSummary(x.Table.Items.Count, scored, x.Act.UnitCount, x.Act.Top.N, Round(x.PassSeconds), Round(x.Table.Items.Count / Math.Max(1e-9, x.PassSeconds)),
-            x.BatchSize, problems, Round(x.InterventionSeconds), x.InterventionRuns);
+            x.BatchSize, problems, Round(x.InterventionSeconds), x.InterventionRuns)
+        {
+            InferenceThreads = x.InferenceThreads,
+            DecodeThreads = x.DecodeThreads,
+            Reduce = x.Reduce,
+        };
     }
 
     private static Coverage CoverageOf(AuditInputs x, List<AttributeReport> attributes)

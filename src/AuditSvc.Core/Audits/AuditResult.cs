@@ -55,7 +55,17 @@ public sealed record ImageSetSummary(
     IReadOnlyList<ValueCount> Labels,
     IReadOnlyList<AttributeSummary> Attributes);
 
-public sealed record PassSummary(int Images, int Scored, int Units, int TopN, double Seconds, double ImagesPerSecond, int BatchSize, IReadOnlyList<ProblemRow> Problems, double InterventionSeconds, int InterventionRuns);
+public sealed record PassSummary(int Images, int Scored, int Units, int TopN, double Seconds, double ImagesPerSecond, int BatchSize, IReadOnlyList<ProblemRow> Problems, double InterventionSeconds, int InterventionRuns)
+{
+    /// <summary>ONNX Runtime intra-op threads the pass chose (0 when not recorded).</summary>
+    public int InferenceThreads { get; init; }
+
+    /// <summary>Threads decoding images alongside inference (0 when not recorded).</summary>
+    public int DecodeThreads { get; init; }
+
+    /// <summary>Where unit scores were taken: "in-graph" (maxima computed by the runtime) or "full-maps".</summary>
+    public string? Reduce { get; init; }
+}
 
 /// <summary>A behavioural measure of reliance on an attribute: a rate or a gap with its sample size and interval.</summary>
 public sealed record Measure(string Name, double Value, int N, double Low, double High, double? PValue, string Detail);

@@ -1,0 +1,96 @@
+using System.CommandLine;
+using System.Globalization;
+using System.Text.Json;
+using AuditSvc.Compute.Bench;
+using AuditSvc.Core;
+
+namespace AuditSvc.Cli.Commands;
+
+/// <summary>`bench`: throughput and memory of the activation pass against raw inference, one run, as ratios.</summary>
+internal static class BenchCommand
+{
+    /// <summary>The default model: ResNet-18 from the pinned NuGet package, copied beside the binary at build.</summary>
+    internal static readonly string DefaultModel = Path.Combine(AppContext.BaseDirectory, "bench-models", "resnet18.onnx");
+
+    private static readonly string DemoModel = Path.Combine(AppContext.BaseDirectory, "demo-models", "fruit-cue.onnx");
+
+    public static Command Create()
+    {
+        var model = new Option<string?>("--model") { Description = "ONNX model (default: the ResNet-18 from the bench package, else the demo model)" };
+        var images = new Option<int>("--images") { Description = "Images N per phase; memory is also measured at 10×N", DefaultValueFactory = _ => 200 };
+        var batch = new Option<int>("--batch") { Description = "Images per model run (0 = the pass chooses)" };
+        var threads = new Option<int>("--threads") { Description = "Inference and decode threads (0 = all cores)" };
+        var size = new Option<string?>("--size") { Description = "Generated photo size WxH (default 500x375)" };
+        var json = new Option<bool>("--json") { Description = "End with one JSON object on the last line" };
+        var factor = new Option<int>("--memory-factor") { Description = "Memory is compared at N and at this multiple of N", DefaultValueFactory = _ => 10 };
+        var rounds = new Option<int>("--rounds") { Description = "Alternating rounds of raw and pass timing; the best of each is kept", DefaultValueFactory = _ => 5 };
+        var torch = new Option<string?>("--torch") { Description = "Eager-mode comparison script to run on the same images (bench/torch_hooks.py)" };
+        var decodeThreads = new Option<int>("--decode-threads") { Description = "Decode threads, when not those of --threads (0 = the pass chooses)" };
+        var spinning = new Option<bool?>("--spinning") { Description = "Let ONNX Runtime threads spin between kernels (default: the pass chooses, off)" };
+        var work = new Option<string?>("--work") { Description = "Folder for the generated photos, kept after the run (default: a temporary folder, removed)" };
+        var minSeconds = new Option<double>("--min-seconds") { Description = "Each timed phase repeats the set until this many seconds have passed", DefaultValueFactory = _ => 1.5 };
+        var cmd = new Command("bench", "Throughput and memory of the activation pass against raw inference, measured in one run")
+        {
+            model, images, batch, threads, decodeThreads, spinning, size, json, factor, rounds, torch, work, minSeconds,
+        };
+        cmd.SetAction((parse, ct) =>
+        {
+            int n = parse.GetValue(images);
+            if (n <= 0) throw new AuditInputException("--images", $"{n} is not a positive number of images");
+            var (w, h) = InspectCommand.ParseSize(parse.GetValue(size) ?? "500x375");
+            var path = parse.GetValue(model) ?? (File.Exists(DefaultModel) ? DefaultModel : DemoModel);
+            if (!File.Exists(path)) throw new AuditInputException(path, "model file not found");
+            bool asJson = parse.GetValue(json);
+            var options = new BenchOptions(path, n, parse.GetValue(batch), parse.GetValue(threads), w ?? 500, h ?? 375,
+                Math.Max(1, parse.GetValue(factor)), Math.Max(1, parse.GetValue(rounds)), TorchScript: parse.GetValue(torch),
+                DecodeThreads: parse.GetValue(decodeThreads), Spinning: parse.GetValue(spinning), WorkDirectory: parse.GetValue(work),
+                MinPhaseSeconds: Math.Max(0, parse.GetValue(minSeconds)));
+            var result = ThroughputBench.Run(options, line => Console.Error.WriteLine(line), ct);
+            Console.Out.Write(ToText(result));
+            if (asJson) Console.Out.WriteLine(ToJson(result));
+            return Task.FromResult(ExitCodes.Pass);
+        });
+        return cmd;
+    }
+
+    internal static string ToText(BenchResult r)
+    {
+        var w = new StringWriter(CultureInfo.InvariantCulture);
+        w.WriteLine($"machine      {r.Machine} (load {r.LoadAverage:0.00} at the end)");
+        w.WriteLine($"model        {r.Model}: {r.Units} units, batch {r.BatchSize} ({r.BatchMode}), {r.InferenceThreads} inference / {r.DecodeThreads} decode threads");
+        w.WriteLine($"images       N = {r.Images}, photos {r.PhotoSize}");
+        w.WriteLine($"rates        medians of {r.Rounds} rounds; ratios are medians of per-round ratios; CPU ms per image in brackets");
+        w.WriteLine($"raw          {r.Raw.ImagesPerSecond,8:0.0} images/s  [{r.Raw.CpuMsPerImage:0.00}]  ({r.RawSource})");
+        w.WriteLine($"pass         {r.Pass.ImagesPerSecond,8:0.0} images/s  [{r.Pass.CpuMsPerImage:0.00}]  pass/raw  {r.PassRatio:0.000}");
+        w.WriteLine($"whole        {r.Whole.ImagesPerSecond,8:0.0} images/s  [{r.Whole.CpuMsPerImage:0.00}]  whole/raw {r.WholeRatio:0.000}");
+        w.WriteLine($"decode only  {r.Decode.ImagesPerSecond,8:0.0} images/s  [{r.Decode.CpuMsPerImage:0.00}]");
+        w.WriteLine($"shared bound {r.SharedBound,8:0.0} images/s  whole/bound {r.WholeVsBound:0.000}  (1 / (1/decode + 1/raw))");
+        if (r.TorchImagesPerSecond is { } t) w.WriteLine($"eager script {t,8:0.0} images/s  whole/script {r.WholeVsTorch:0.00}");
+        else if (r.TorchNote is not null) w.WriteLine($"eager script not run: {r.TorchNote}");
+        w.WriteLine($"memory       peak {Mb(r.PeakBytesAtN)} at N (first run), {Mb(r.PeakBytesAtFactorN)} at {r.FactorImages}, {Mb(r.PeakBytesAtNAfter)} at N again: " +
+            $"{r.MemoryGrowth * 100:+0.0;-0.0}% against N again ({r.MemoryGrowthFromFirst * 100:+0.0;-0.0}% against the first); {r.WholeAtFactorN.ImagesPerSecond:0.0} images/s at {r.FactorImages}");
+        w.WriteLine($"resident     after repeated passes: {string.Join(", ", r.ResidentAfterRuns.Select(Mb))}");
+        w.WriteLine($"per image    {r.ProbabilityBytesPerImage} bytes of probabilities, prediction and flag");
+        return w.ToString();
+    }
+
+    private static string Mb(long bytes) => string.Create(CultureInfo.InvariantCulture, $"{bytes / 1048576.0:0} MB");
+
+    internal static string ToJson(BenchResult r) => JsonSerializer.Serialize(new Dictionary<string, object?>
+    {
+        ["model"] = r.Model, ["machine"] = r.Machine, ["cores"] = r.Cores, ["images"] = r.Images, ["batch_size"] = r.BatchSize,
+        ["inference_threads"] = r.InferenceThreads, ["decode_threads"] = r.DecodeThreads, ["batch_mode"] = r.BatchMode, ["units"] = r.Units,
+        ["photo_size"] = r.PhotoSize, ["raw_source"] = r.RawSource,
+        ["rounds"] = r.Rounds, ["raw_cpu_ms"] = Round(r.Raw.CpuMsPerImage), ["pass_cpu_ms"] = Round(r.Pass.CpuMsPerImage),
+        ["whole_cpu_ms"] = Round(r.Whole.CpuMsPerImage), ["decode_cpu_ms"] = Round(r.Decode.CpuMsPerImage),
+        ["raw_ips"] = Round(r.Raw.ImagesPerSecond), ["pass_ips"] = Round(r.Pass.ImagesPerSecond), ["whole_ips"] = Round(r.Whole.ImagesPerSecond),
+        ["decode_ips"] = Round(r.Decode.ImagesPerSecond), ["shared_bound_ips"] = Round(r.SharedBound),
+        ["pass_ratio"] = Round(r.PassRatio), ["whole_ratio"] = Round(r.WholeRatio), ["whole_vs_bound"] = Round(r.WholeVsBound),
+        ["torch_ips"] = r.TorchImagesPerSecond is { } t ? Round(t) : null, ["whole_vs_torch"] = r.WholeVsTorch is { } v ? Round(v) : null,
+        ["peak_bytes_n"] = r.PeakBytesAtN, ["peak_bytes_factor_n"] = r.PeakBytesAtFactorN, ["factor_images"] = r.FactorImages,
+        ["peak_bytes_n_after"] = r.PeakBytesAtNAfter, ["memory_growth"] = Round(r.MemoryGrowth), ["memory_growth_from_first"] = Round(r.MemoryGrowthFromFirst), ["resident_after_runs"] = r.ResidentAfterRuns,
+        ["probability_bytes_per_image"] = r.ProbabilityBytesPerImage, ["load_average"] = Round(r.LoadAverage),
+    });
+
+    private static double? Round(double v) => double.IsFinite(v) ? Math.Round(v, 3) : null;
+}

@@ -1,0 +1,108 @@
+using AuditSvc.Core.Models;
+using Google.Protobuf;
+using Onnx;
+
+namespace AuditSvc.Compute.Activations;
+
+/// <summary>
+/// Moves the channel maxima into the graph: every 4-D read layer [N,C,H,W] is replaced as an output by its
+/// maximum over H×W ([N,C], float) and the first position holding it ([N,C], int64), computed by ONNX Runtime's
+/// own ReduceMax and ArgMax. The activation maps then stay inside the runtime, whose memory planner reuses their
+/// buffers as it does for the plain model, instead of being handed out in full for every batch.
+/// 2-D layers stay as they are (their value is the score). <see cref="ChannelMax"/> is the reference it is tested against;
+/// they agree on finite maps (first index on ties); on a map holding NaN the runtime's ArgMax rules apply instead of
+/// ChannelMax's "NaN is lowest", which only matters for a model that is already broken.
+/// </summary>
+public static class ReducedGraph
+{
+    /// <summary>
+    /// A copy of <paramref name="exposed"/> (outputs: class output, then <paramref name="read"/> in order) whose
+    /// outputs become: class output, then per read layer either [max, argmax] (4-D) or the layer itself (2-D).
+    /// </summary>
+    public static byte[] Rewrite(byte[] exposed, IReadOnlyList<LayerInfo> read)
+    {
+        var model = ModelProto.Parser.ParseFrom(exposed);
+        var graph = model.Graph;
+        long opset = model.OpsetImport.Where(o => o.Domain is "" or "ai.onnx").Select(o => o.Version).DefaultIfEmpty(13).Max();
+        var outputs = graph.Output.ToList();
+        graph.Output.Clear();
+        graph.Output.Add(outputs[0]);
+        for (int l = 0; l < read.Count; l++)
+        {
+            var layer = read[l];
+            if (layer.Rank != 4)
+            {
+                graph.Output.Add(outputs[l + 1]);
+                continue;
+            }
+            string p = $"auditsvc_reduce_{l}_", flat = p + "flat", max = p + "max", arg = p + "argmax", shape = p + "shape";
+            graph.Initializer.Add(Int64Tensor(shape, [0, layer.Channels, -1]));
+            graph.Node.Add(Node("Reshape", [layer.Name, shape], [flat], p + "reshape"));
+            var argMax = Node("ArgMax", [flat], [arg], p + "argmax_node");
+            argMax.Attribute.Add(IntAttr("axis", [2]));
+            argMax.Attribute.Add(IntAttr("keepdims", [1]));
+            graph.Node.Add(argMax);
+            if (opset >= 11)
+            {
+                // The value at the arg-max is the maximum: gather N×C values instead of reading the maps twice.
+                var gather = Node("GatherElements", [flat, arg], [max], p + "gather");
+                gather.Attribute.Add(IntAttr("axis", [2]));
+                graph.Node.Add(gather);
+            }
+            else
+            {
+                var reduce = Node("ReduceMax", opset >= 18 ? [flat, p + "axes"] : [flat], [max], p + "reducemax");
+                if (opset >= 18) graph.Initializer.Add(Int64Tensor(p + "axes", [2]));
+                else reduce.Attribute.Add(IntAttr("axes", [2]));
+                reduce.Attribute.Add(IntAttr("keepdims", [1]));
+                graph.Node.Add(reduce);
+            }
+            graph.Output.Add(Info(max, TensorProto.Types.DataType.Float, layer.Channels));
+            graph.Output.Add(Info(arg, TensorProto.Types.DataType.Int64, layer.Channels));
+        }
+        return model.ToByteArray();
+    }
+
+    /// <summary>The output names of the rewritten graph after the class output, in order.</summary>
+    public static IReadOnlyList<string> OutputNames(IReadOnlyList<LayerInfo> read) =>
+        read.SelectMany((layer, l) => layer.Rank == 4
+            ? new[] { $"auditsvc_reduce_{l}_max", $"auditsvc_reduce_{l}_argmax" }
+            : [layer.Name]).ToList();
+
+    private static NodeProto Node(string op, string[] inputs, string[] outputs, string name)
+    {
+        var node = new NodeProto { OpType = op, Name = name };
+        node.Input.AddRange(inputs);
+        node.Output.AddRange(outputs);
+        return node;
+    }
+
+    private static AttributeProto IntAttr(string name, long[] values)
+    {
+        var a = new AttributeProto { Name = name };
+        if (name is "axes") { a.Type = AttributeProto.Types.AttributeType.Ints; a.Ints.AddRange(values); }
+        else { a.Type = AttributeProto.Types.AttributeType.Int; a.I = values[0]; }
+        return a;
+    }
+
+    private static TensorProto Int64Tensor(string name, long[] values)
+    {
+        var t = new TensorProto { Name = name, DataType = (int)TensorProto.Types.DataType.Int64 };
+        t.Dims.Add(values.Length);
+        t.Int64Data.AddRange(values);
+        return t;
+    }
+
+    private static ValueInfoProto Info(string name, TensorProto.Types.DataType type, int channels)
+    {
+        var shape = new TensorShapeProto();
+        shape.Dim.Add(new TensorShapeProto.Types.Dimension { DimParam = "N" });
+        shape.Dim.Add(new TensorShapeProto.Types.Dimension { DimValue = channels });
+        shape.Dim.Add(new TensorShapeProto.Types.Dimension { DimValue = 1 });
+        return new ValueInfoProto
+        {
+            Name = name,
+            Type = new TypeProto { TensorType = new TypeProto.Types.Tensor { ElemType = (int)type, Shape = shape } },
+        };
+    }
+}
