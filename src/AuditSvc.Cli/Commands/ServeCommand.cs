@@ -10,7 +10,7 @@ internal static class ServeCommand
     public static Command Create()
     {
         var urls = new Option<string>("--urls") { Description = "addresses to listen on", DefaultValueFactory = _ => "http://0.0.0.0:8080" };
-        var cmd = new Command("serve", "run the REST service and job workers (AUDITSVC_DB, AUDITSVC_DATA; see docs/service.md)") { urls };
+        var cmd = new Command("serve", "run the REST service and job workers (AUDITSVC_DB, AUDITSVC_DATA; see README.md, Service)") { urls };
         cmd.SetAction(async (parse, ct) =>
         {
             var app = ServiceHost.BuildApi(["--urls", parse.GetValue(urls)!]);
