@@ -143,12 +143,13 @@ public static class Interventions
         var recipients = table.Items
             .Where(i => act.Scored[i.Index] && i.Label != cue && act.Predicted[i.Index] != cue && i.AttributeValues[attribute] >= 0 && i.AttributeValues[attribute] != value)
             .Select(i => i.Index).OrderBy(_ => rng.Next()).Take(Math.Max(2, budget / 2)).ToList();
-        return TransplantInto(runs, table, donors, recipients, cue);
+        return TransplantInto(runs, table, act, donors, recipients, cue, "images of other labels without the cue");
     }
 
     /// <summary>
-    /// Transplant for a fixed-place candidate: recipients are images of other labels, not predicted as the cue's
-    /// class, whose score on the unit is below its median (they lack the pattern).
+    /// Transplant for a fixed-place candidate: recipients are images whose score on the unit is at or below its median
+    /// (they lack the pattern). No class is known for a cue nobody named, so any change of prediction counts, net of
+    /// the neutral patch; a class read off the exemplars' predictions would be confounded by other cues they share.
     /// </summary>
     public static Measure? MeasurePlace(ImageRuns runs, ItemTable table, ModelPlan plan, ActivationResult act, PlaceCandidateCore c, int budget)
     {
@@ -159,23 +160,25 @@ public static class Interventions
         float median = valid[valid.Length / 2];
         var rng = new Random(20261203);
         var recipients = table.Items
-            .Where(i => act.Scored[i.Index] && i.Label != c.CueClass && act.Predicted[i.Index] != c.CueClass && scores[i.Index] <= median && !c.Top.Any(t => t.Item == i.Index))
+            .Where(i => act.Scored[i.Index] && scores[i.Index] <= median && !c.Top.Any(t => t.Item == i.Index))
             .Select(i => i.Index).OrderBy(_ => rng.Next()).Take(Math.Max(2, budget / 2)).ToList();
         var donors = c.Top.Take(DonorsPerCue).Select(p => (p.Item, Regions.PeakBox(c.Layer.Layer, p, plan.Recipe.Height, plan.Recipe.Width))).ToList();
-        return TransplantInto(runs, table, donors, recipients, c.CueClass);
+        return TransplantInto(runs, table, act, donors, recipients, null, "images that score low on the unit");
     }
 
-    private static Measure? TransplantInto(ImageRuns runs, ItemTable table, List<(int Item, Box Box)> donors, List<int> recipients, int cue)
+    /// <param name="cue">The class the cue stands for; null for a cue nobody named, where any change of prediction counts.</param>
+    private static Measure? TransplantInto(ImageRuns runs, ItemTable table, ActivationResult act, List<(int Item, Box Box)> donors, List<int> recipients, int? cue, string who)
     {
         if (recipients.Count < 2) return null;
         var treated = new List<Image<Rgb24>>();
         var control = new List<Image<Rgb24>>();
+        var kept = new List<int>();
         for (int j = 0; j < recipients.Count; j++)
         {
             var target = runs.Fitted(table.Items[recipients[j]].Path, recipients[j]);
             var donor = donors[j % donors.Count];
             var source = runs.Fitted(table.Items[donor.Item].Path, donor.Item);
-            // The control patch: the same box from another recipient, an image of another label without the cue.
+            // The control patch: the same box from another recipient, an image that lacks the cue too.
             int other = recipients[(j + 1) % recipients.Count];
             var neutral = runs.Fitted(table.Items[other].Path, other);
             if (target is null || source is null || neutral is null) continue;
@@ -185,17 +188,20 @@ public static class Interventions
             var c = target.Clone();
             ImageRuns.Paste(neutral, c, donor.Box);
             control.Add(c);
+            kept.Add(recipients[j]);
         }
         if (treated.Count == 0) return null;
-        var moved = runs.Run(treated).Predicted.Count(p => p == cue);
-        var movedControl = runs.Run(control).Predicted.Count(p => p == cue);
+        bool Moved(int prediction, int i) => cue is { } k ? prediction == k : prediction != act.Predicted[kept[i]];
+        var moved = runs.Run(treated).Predicted.Where(Moved).Count();
+        var movedControl = runs.Run(control).Predicted.Where(Moved).Count();
         foreach (var i in treated.Concat(control)) i.Dispose();
         int n = treated.Count;
         double rate = moved / (double)n, baseRate = movedControl / (double)n, net = rate - baseRate;
         var (lo, hi) = WilsonInterval.Compute(moved, n);
         // Interval of the net rate: the treated interval shifted by the control rate (the control is a reference level).
         var p = Hypergeometric.UpperTail(2 * n, moved + movedControl, n, moved);
+        string what = cue is { } cls ? $"moved to the cue's class ({table.Labels[cls]})" : "changed their prediction";
         return new Measure("transplant", net, n, lo - baseRate, hi - baseRate, p,
-            $"exemplar patch pasted at the same place into images of other labels without the cue; {moved}/{n} moved to the cue's class, {movedControl}/{n} with a neutral patch from the same box");
+            $"exemplar patch pasted at the same place into {who}; {moved}/{n} {what}, {movedControl}/{n} with a neutral patch from the same box");
     }
 }

@@ -63,8 +63,9 @@ public static class AuditAssembler
             attributes.Add(new AttributeReport(name, Round(link.CramersV), link.Confounded, x.Policy.IsAllowed(name), leakage, x.Policy.ThresholdFor(name),
                 attrVerdict, measures, tests, findings, note));
         }
-        // Unexplained candidates join the verdict when moving their patch measurably moves decisions.
-        foreach (var c in x.Candidates.Where(c => c.ExplainedBy is null && c.Transplant is { Low: > 0 }))
+        // Unexplained candidates join the verdict when moving their patch moves decisions more than a neutral
+        // patch does (one-sided test of treated against control below 0.05); a single stray move does not count.
+        foreach (var c in x.Candidates.Where(c => c.ExplainedBy is null && c.Transplant is { PValue: < 0.05 }))
         {
             var name = "place:" + c.Region;
             if (attributes.Any(a => a.Name == name)) continue;

@@ -21,7 +21,17 @@ public sealed class DemoAuditFixture : IDisposable
         Cue = Audit("fruit-cue.onnx", Manifest, "cue", policy);
         Control = Audit("fruit-control.onnx", Manifest, "control", policy);
         BareCue = Audit("fruit-cue.onnx", Bare, "bare", policy);
+        // Cues independent of the label, no attribute columns: the overlay must still be found by its place.
+        var independent = DemoSetGenerator.Write(Path.Combine(Root, "independent"), new DemoSetOptions(1200, DemoSetOptions.IndependentAgreement, 777));
+        var bareIndependent = Path.Combine(Root, "independent", "bare.csv");
+        File.WriteAllLines(bareIndependent, File.ReadAllLines(independent).Select(l => string.Join(',', l.Split(',').Take(2))));
+        BareIndependentCue = Audit("fruit-cue.onnx", bareIndependent, "bare-independent-cue", policy);
+        BareIndependentControl = Audit("fruit-control.onnx", bareIndependent, "bare-independent-control", policy);
     }
+
+    public Result BareIndependentCue { get; }
+
+    public Result BareIndependentControl { get; }
 
     public string Root { get; }
 

@@ -85,6 +85,16 @@ public class DemoAuditTests(DemoAuditFixture demo)
     }
 
     [Fact]
+    public void Audit_NoColumnsAndCuesIndependentOfLabel_CueModelBlocksOnTheOverlayControlPasses()
+    {
+        Assert.Equal(1, demo.BareIndependentCue.Status);
+        var reason = demo.BareIndependentCue.Json["reasons"]!.AsArray().Single();
+        Assert.Equal("place:bottom-right", (string)reason!["attribute"]!);
+        Assert.Equal(0, demo.BareIndependentControl.Status);
+        Assert.Equal("pass", (string)demo.BareIndependentControl.Json["verdict"]!);
+    }
+
+    [Fact]
     public void Audit_AllowedClassDefiningAttribute_NeverBlocks() =>
         Assert.Equal("allowed", (string)Attribute(demo.Cue.Json, "defect_area")["verdict"]!);
 
