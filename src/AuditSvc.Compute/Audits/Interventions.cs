@@ -48,17 +48,20 @@ public static class Interventions
         var results = new List<CueIntervention>();
         var mean = MeanColour(table, runs);
         int h = plan.Recipe.Height, w = plan.Recipe.Width;
+        var pushed = new Dictionary<(int, int), int>();
+        int Pushed(int attribute, int value) =>
+            pushed.TryGetValue((attribute, value), out var k) ? k : pushed[(attribute, value)] = CueDirection.PushedClass(table, act, attribute, value);
         foreach (var link in analysis.Links)
         {
             ct.ThrowIfCancellationRequested();
             var local = analysis.Findings
-                .Where(f => f.Attribute == link.Attribute && f.Layer.Layer.Rank == 4 && link.FavouredLabel[f.Value] >= 0
-                            && link.Lift[link.FavouredLabel[f.Value], f.Value] > 1 && f.Top.Length > 0
+                .Where(f => f.Attribute == link.Attribute && f.Layer.Layer.Rank == 4 && f.Top.Length > 0
+                            && Pushed(f.Attribute, f.Value) >= 0
                             && BoxShare(Regions.PeakBox(f.Layer.Layer, f.Top[0], h, w), h, w) <= MaxBoxShare)
                 .ToList();
             if (local.Count == 0) continue;
             int value = local[0].Value;
-            int cue = link.FavouredLabel[value];
+            int cue = Pushed(link.Attribute, value);
             // The deepest local units see the whole cue; a first-layer unit sees a few pixels of it.
             var units = local.Where(f => f.Value == value)
                 .OrderByDescending(f => BoxShare(Regions.PeakBox(f.Layer.Layer, f.Top[0], h, w), h, w))

@@ -59,3 +59,35 @@ public static class AttributeAssociation
         return result;
     }
 }
+
+/// <summary>Which class a cue pushes the model's decisions toward.</summary>
+public static class CueDirection
+{
+    /// <summary>
+    /// The class whose share of predictions rises most on images with the value against images without it, or -1
+    /// when none rises. Read off the model's own decisions, not off the set's label mix: on a set where the cue is
+    /// independent of the label the label mix says nothing, while the model's decisions still show where the cue
+    /// pushes them.
+    /// </summary>
+    public static int PushedClass(ImageSets.ItemTable table, Activations.ActivationResult act, int attribute, int value)
+    {
+        var with = new int[act.ClassCount];
+        var without = new int[act.ClassCount];
+        int nWith = 0, nWithout = 0;
+        foreach (var item in table.Items)
+        {
+            int v = item.AttributeValues[attribute], p = act.Predicted[item.Index];
+            if (!act.Scored[item.Index] || v < 0 || p < 0) continue;
+            if (v == value) { with[p]++; nWith++; } else { without[p]++; nWithout++; }
+        }
+        if (nWith == 0 || nWithout == 0) return -1;
+        int best = -1;
+        double bestRise = 0;
+        for (int k = 0; k < act.ClassCount; k++)
+        {
+            double rise = with[k] / (double)nWith - without[k] / (double)nWithout;
+            if (rise > bestRise) { bestRise = rise; best = k; }
+        }
+        return best;
+    }
+}

@@ -8,8 +8,10 @@ namespace AuditSvc.Core.Analysis;
 
 /// <summary>
 /// Accuracy per (label, attribute value) group, and the gap between cue-aligned and cue-conflicting images.
-/// An image is cue-aligned when its attribute value is over-represented in its own label (lift above 1),
-/// cue-conflicting when under-represented. The gap is taken within each label and pooled with Mantel–Haenszel
+/// Which class a value pushes toward is read off the model's decisions (<see cref="CueDirection.PushedClass"/>): an
+/// image is cue-aligned when its value pushes toward its own label, cue-conflicting when toward another class, and
+/// neutral (left out of the gap) when toward none. The set's label mix would do for a set where the cue follows the
+/// label, but says nothing on a balanced set, which is the best set to audit on. The gap is taken within each label and pooled with Mantel–Haenszel
 /// weights (a stratified risk difference), so label mix cannot fake or hide it; its significance is the
 /// Cochran–Mantel–Haenszel test of correct × aligned stratified by label, with the common odds ratio.
 /// </summary>
@@ -17,6 +19,13 @@ public static class GroupAccuracyAnalysis
 {
     public static (List<GroupAccuracy> Groups, Measure? Gap) Compute(
         ItemTable table, ActivationResult act, AttributeLink link, AuditPolicy policy)
+    {
+        var pushed = Enumerable.Range(0, table.Attributes[link.Attribute].Values.Count).Select(v => CueDirection.PushedClass(table, act, link.Attribute, v)).ToArray();
+        return Compute(table, act, link, pushed, policy);
+    }
+
+    public static (List<GroupAccuracy> Groups, Measure? Gap) Compute(
+        ItemTable table, ActivationResult act, AttributeLink link, int[] pushed, AuditPolicy policy)
     {
         int a = link.Attribute, labels = table.Labels.Count, vc = table.Attributes[a].Values.Count;
         var n = new int[labels, vc];
@@ -38,10 +47,11 @@ public static class GroupAccuracyAnalysis
             for (int v = 0; v < vc; v++)
             {
                 if (n[k, v] == 0) continue;
-                bool aligned = link.Lift[k, v] > 1;
+                string relation = pushed[v] < 0 ? "neutral" : pushed[v] == k ? "aligned" : "conflicting";
                 if (n[k, v] >= policy.MinGroupSize)
-                    groups.Add(new GroupAccuracy(table.Attributes[a].Name, table.Labels[k], table.Attributes[a].Values[v], n[k, v], correct[k, v], correct[k, v] / (double)n[k, v], aligned));
-                if (aligned) { n1 += n[k, v]; c1 += correct[k, v]; } else { n2 += n[k, v]; c2 += correct[k, v]; }
+                    groups.Add(new GroupAccuracy(table.Attributes[a].Name, table.Labels[k], table.Attributes[a].Values[v], n[k, v], correct[k, v], correct[k, v] / (double)n[k, v], relation));
+                if (relation == "aligned") { n1 += n[k, v]; c1 += correct[k, v]; }
+                else if (relation == "conflicting") { n2 += n[k, v]; c2 += correct[k, v]; }
             }
             if (n1 < policy.MinGroupSize || n2 < policy.MinGroupSize) continue;
             double p1 = c1 / (double)n1, p2 = c2 / (double)n2, w = n1 * (double)n2 / (n1 + n2);

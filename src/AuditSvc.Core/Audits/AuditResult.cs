@@ -118,7 +118,8 @@ public sealed record CueGroup(string Attribute, string Value, int Units, IReadOn
 /// <summary>A unit whose peaks sit at one fixed place across images of several labels: a cue nobody labelled.</summary>
 public sealed record PlaceCandidate(string Layer, int Unit, string Region, double PlaceShare, int LabelsCovered, Measure? Transplant, IReadOnlyList<Exemplar> Exemplars, string? ExplainedBy);
 
-public sealed record GroupAccuracy(string Attribute, string Label, string Value, int N, int Correct, double Accuracy, bool Aligned);
+/// <summary>Accuracy in one (label, value) group; Relation is aligned, conflicting or neutral (see GroupAccuracyAnalysis).</summary>
+public sealed record GroupAccuracy(string Attribute, string Label, string Value, int N, int Correct, double Accuracy, string Relation);
 
 /// <summary>What the audit tested and what it did not; shown in the report next to the verdict.</summary>
 public sealed record Coverage(IReadOnlyList<string> Tested, IReadOnlyList<string> NotTested, IReadOnlyList<string> Cautions);

@@ -83,7 +83,7 @@ public static partial class HtmlReport
     private static void Groups(StringBuilder sb, AuditResult r)
     {
         sb.Append("<section id=\"groups\"><h2>Accuracy by group</h2>\n")
-          .Append("<p class=\"muted\">Cue-aligned: the label the attribute value most predicts is the image's label; cue-conflicting otherwise. ")
+          .Append("<p class=\"muted\">Cue-aligned: the attribute value pushes the model toward the image's own label; cue-conflicting: toward another class; neutral: toward none. ")
           .Append("A model that follows the cue is right on aligned groups and wrong on conflicting ones.</p>\n");
         if (r.Groups.Count == 0)
         {
@@ -96,7 +96,7 @@ public static partial class HtmlReport
             sb.Append("<tr><td>").Append(E(g.Attribute)).Append("</td><td>").Append(E(g.Label)).Append("</td><td>").Append(E(g.Value))
               .Append("</td><td class=\"num\">").Append(Int(g.N)).Append("</td><td class=\"num\">").Append(Pct(g.Accuracy, 1))
               .Append("</td><td class=\"acc\"><div class=\"bar thin\"><span class=\"fill neutral\" style=\"width:").Append(Width(g.Accuracy))
-              .Append("\"></span></div></td><td>").Append(g.Aligned ? "aligned" : "<strong>conflicting</strong>").Append("</td></tr>\n");
+              .Append("\"></span></div></td><td>").Append(g.Relation == "conflicting" ? "<strong>conflicting</strong>" : E(g.Relation)).Append("</td></tr>\n");
         }
         sb.Append("</tbody></table></section>\n");
     }

@@ -27,7 +27,13 @@ public sealed class DemoAuditFixture : IDisposable
         File.WriteAllLines(bareIndependent, File.ReadAllLines(independent).Select(l => string.Join(',', l.Split(',').Take(2))));
         BareIndependentCue = Audit("fruit-cue.onnx", bareIndependent, "bare-independent-cue", policy);
         BareIndependentControl = Audit("fruit-control.onnx", bareIndependent, "bare-independent-control", policy);
+        IndependentCue = Audit("fruit-cue.onnx", independent, "independent-cue", policy);
+        IndependentControl = Audit("fruit-control.onnx", independent, "independent-control", policy);
     }
+
+    public Result IndependentCue { get; }
+
+    public Result IndependentControl { get; }
 
     public Result BareIndependentCue { get; }
 

@@ -95,6 +95,17 @@ public class DemoAuditTests(DemoAuditFixture demo)
     }
 
     [Fact]
+    public void Audit_BalancedSetWhereCuesAreIndependentOfLabel_StillCatchesBothCues()
+    {
+        Assert.Equal(1, demo.IndependentCue.Status);
+        Assert.Equal("block", (string)Attribute(demo.IndependentCue.Json, "stamp")["verdict"]!);
+        Assert.Equal("block", (string)Attribute(demo.IndependentCue.Json, "belt")["verdict"]!);
+        Assert.True(Measure(demo.IndependentCue.Json, "belt", "accuracy_gap") > 0.5, "a balanced set must still show the belt's pull");
+        Assert.Equal("pass", (string)Attribute(demo.IndependentCue.Json, "camera")["verdict"]!);
+        Assert.Equal(0, demo.IndependentControl.Status);
+    }
+
+    [Fact]
     public void Audit_AllowedClassDefiningAttribute_NeverBlocks() =>
         Assert.Equal("allowed", (string)Attribute(demo.Cue.Json, "defect_area")["verdict"]!);
 

@@ -64,9 +64,9 @@ internal static class SampleAudit
             Candidates: [new PlaceCandidate("layer3/conv2", 77, "bottom-left", 0.81, 3, transplant, exemplars.Take(4).ToList(), null)],
             Groups:
             [
-                new GroupAccuracy("stamp", "healthy", "yes", 400, 392, 0.98, true),
-                new GroupAccuracy("stamp", "healthy", "no", 200, 112, 0.56, false),
-                new GroupAccuracy("stamp", NastyLabel, "yes", 50, 45, 0.9, true),
+                new GroupAccuracy("stamp", "healthy", "yes", 400, 392, 0.98, "aligned"),
+                new GroupAccuracy("stamp", "healthy", "no", 200, 112, 0.56, "conflicting"),
+                new GroupAccuracy("stamp", NastyLabel, "yes", 50, 45, 0.9, "aligned"),
             ],
             Coverage: new Coverage(
                 ["stamp", "site", "backdrop"],
