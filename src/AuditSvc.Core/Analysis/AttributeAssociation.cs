@@ -5,11 +5,10 @@ using AuditSvc.Core.Statistics;
 namespace AuditSvc.Core.Analysis;
 
 /// <summary>How strongly an attribute is tied to the label over the image set.</summary>
-public sealed record AttributeLink(int Attribute, double CramersV, bool Confounded, int[] FavouredLabel, double[,] Lift);
+public sealed record AttributeLink(int Attribute, double CramersV, bool Confounded);
 
 /// <summary>
-/// Cramér's V (bias-corrected, Bergsma 2013) between each attribute and the label, and which label each value
-/// favours (highest lift, P(label | value) / P(label)). An attribute is confounded when V reaches the policy's
+/// Cramér's V (bias-corrected, Bergsma 2013) between each attribute and the label. An attribute is confounded when V reaches the policy's
 /// level or when no value has a label with enough images on both sides for the stratified test: then the
 /// audit cannot tell the cue from the class, and says so instead of guessing.
 /// </summary>
@@ -35,26 +34,15 @@ public static class AttributeAssociation
             }
             double cv = vc < 2 || labels < 2 ? 0 : CramersV.Compute(labelCodes.ToArray(), labels, valueCodes.ToArray(), vc, biasCorrected: true);
             if (double.IsNaN(cv)) cv = 0;
-            int total = labelCodes.Count;
-            var lift = new double[labels, vc];
-            var favoured = new int[vc];
             bool separable = false;
-            for (int v = 0; v < vc; v++)
-            {
-                int nv = 0;
-                for (int k = 0; k < labels; k++) nv += counts[k, v];
-                double best = double.NegativeInfinity;
-                favoured[v] = -1;
+            for (int v = 0; v < vc && !separable; v++)
                 for (int k = 0; k < labels; k++)
                 {
                     int nk = 0;
                     for (int w = 0; w < vc; w++) nk += counts[k, w];
-                    lift[k, v] = nv == 0 || nk == 0 ? 0 : counts[k, v] / (double)nv / (nk / (double)total);
-                    if (lift[k, v] > best && counts[k, v] > 0) { best = lift[k, v]; favoured[v] = k; }
-                    if (counts[k, v] >= policy.MinPerSide && nk - counts[k, v] >= policy.MinPerSide) separable = true;
+                    if (counts[k, v] >= policy.MinPerSide && nk - counts[k, v] >= policy.MinPerSide) { separable = true; break; }
                 }
-            }
-            result[a] = new AttributeLink(a, cv, cv >= policy.ConfoundedV || !separable, favoured, lift);
+            result[a] = new AttributeLink(a, cv, cv >= policy.ConfoundedV || !separable);
         }
         return result;
     }
