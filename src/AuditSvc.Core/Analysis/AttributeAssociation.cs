@@ -48,33 +48,71 @@ public static class AttributeAssociation
     }
 }
 
-/// <summary>Which class a cue pushes the model's decisions toward.</summary>
+/// <summary>Which classes a cue pushes the model's decisions toward.</summary>
 public static class CueDirection
 {
+    /// <summary>z of the two-proportion test a rise must reach to count as a push (one-sided, about p &lt; 0.025).</summary>
+    public const double MinZ = 2.0;
+
     /// <summary>
-    /// The class whose share of predictions rises most on images with the value against images without it, or -1
-    /// when none rises. Read off the model's own decisions, not off the set's label mix: on a set where the cue is
-    /// independent of the label the label mix says nothing, while the model's decisions still show where the cue
-    /// pushes them.
+    /// For every value of the attribute and every class: does the share of predictions of that class rise on images
+    /// with the value against images without it (two-proportion z ≥ <see cref="MinZ"/>)? Read off the model's own
+    /// decisions, not off the set's label mix: on a set where the cue is independent of the label the label mix says
+    /// nothing, while the model's decisions still show where the cue pushes them. An absent-cue value ("no stamp")
+    /// pushes toward every class the cue pulls away from, which is what makes its groups aligned or conflicting.
     /// </summary>
+    public static bool[,] Pushes(ImageSets.ItemTable table, Activations.ActivationResult act, int attribute)
+    {
+        int vc = table.Attributes[attribute].Values.Count, k = act.ClassCount;
+        var counts = new int[vc, k];
+        var perValue = new int[vc];
+        var perClass = new int[k];
+        int total = 0;
+        foreach (var item in table.Items)
+        {
+            int v = item.AttributeValues[attribute], p = act.Predicted[item.Index];
+            if (!act.Scored[item.Index] || v < 0 || p < 0) continue;
+            counts[v, p]++;
+            perValue[v]++;
+            perClass[p]++;
+            total++;
+        }
+        var pushes = new bool[vc, k];
+        for (int v = 0; v < vc; v++)
+        {
+            int nWith = perValue[v], nWithout = total - nWith;
+            if (nWith == 0 || nWithout == 0) continue;
+            for (int c = 0; c < k; c++)
+            {
+                double pWith = counts[v, c] / (double)nWith, pWithout = (perClass[c] - counts[v, c]) / (double)nWithout;
+                double pooled = perClass[c] / (double)total;
+                double se = Math.Sqrt(pooled * (1 - pooled) * (1.0 / nWith + 1.0 / nWithout));
+                pushes[v, c] = se > 0 && (pWith - pWithout) / se >= MinZ;
+            }
+        }
+        return pushes;
+    }
+
+    /// <summary>The class whose prediction share rises most with the value among those it pushes toward, or -1.</summary>
     public static int PushedClass(ImageSets.ItemTable table, Activations.ActivationResult act, int attribute, int value)
     {
+        var pushes = Pushes(table, act, attribute);
+        int best = -1;
+        double bestRise = double.NegativeInfinity;
+        int nWith = 0, nWithout = 0;
         var with = new int[act.ClassCount];
         var without = new int[act.ClassCount];
-        int nWith = 0, nWithout = 0;
         foreach (var item in table.Items)
         {
             int v = item.AttributeValues[attribute], p = act.Predicted[item.Index];
             if (!act.Scored[item.Index] || v < 0 || p < 0) continue;
             if (v == value) { with[p]++; nWith++; } else { without[p]++; nWithout++; }
         }
-        if (nWith == 0 || nWithout == 0) return -1;
-        int best = -1;
-        double bestRise = 0;
-        for (int k = 0; k < act.ClassCount; k++)
+        for (int c = 0; c < act.ClassCount; c++)
         {
-            double rise = with[k] / (double)nWith - without[k] / (double)nWithout;
-            if (rise > bestRise) { bestRise = rise; best = k; }
+            if (!pushes[value, c]) continue;
+            double rise = with[c] / (double)nWith - without[c] / (double)nWithout;
+            if (rise > bestRise) { bestRise = rise; best = c; }
         }
         return best;
     }

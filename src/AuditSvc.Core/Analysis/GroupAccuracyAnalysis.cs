@@ -8,9 +8,9 @@ namespace AuditSvc.Core.Analysis;
 
 /// <summary>
 /// Accuracy per (label, attribute value) group, and the gap between cue-aligned and cue-conflicting images.
-/// Which class a value pushes toward is read off the model's decisions (<see cref="CueDirection.PushedClass"/>): an
-/// image is cue-aligned when its value pushes toward its own label, cue-conflicting when toward another class, and
-/// neutral (left out of the gap) when toward none. The set's label mix would do for a set where the cue follows the
+/// Which classes a value pushes toward is read off the model's decisions (<see cref="CueDirection.Pushes"/>): an
+/// image is cue-aligned when its value pushes toward its own label, cue-conflicting when only toward other classes,
+/// and neutral (left out of the gap) when toward none. The set's label mix would do for a set where the cue follows the
 /// label, but says nothing on a balanced set, which is the best set to audit on. The gap is taken within each label and pooled with Mantel–Haenszel
 /// weights (a stratified risk difference), so label mix cannot fake or hide it; its significance is the
 /// Cochran–Mantel–Haenszel test of correct × aligned stratified by label, with the common odds ratio.
@@ -20,13 +20,7 @@ public static class GroupAccuracyAnalysis
     public static (List<GroupAccuracy> Groups, Measure? Gap) Compute(
         ItemTable table, ActivationResult act, AttributeLink link, AuditPolicy policy)
     {
-        var pushed = Enumerable.Range(0, table.Attributes[link.Attribute].Values.Count).Select(v => CueDirection.PushedClass(table, act, link.Attribute, v)).ToArray();
-        return Compute(table, act, link, pushed, policy);
-    }
-
-    public static (List<GroupAccuracy> Groups, Measure? Gap) Compute(
-        ItemTable table, ActivationResult act, AttributeLink link, int[] pushed, AuditPolicy policy)
-    {
+        var pushes = CueDirection.Pushes(table, act, link.Attribute);
         int a = link.Attribute, labels = table.Labels.Count, vc = table.Attributes[a].Values.Count;
         var n = new int[labels, vc];
         var correct = new int[labels, vc];
@@ -37,6 +31,11 @@ public static class GroupAccuracyAnalysis
             n[item.Label, v]++;
             if (act.Predicted[item.Index] == item.Label) correct[item.Label, v]++;
         }
+        // When no value moves the model's decisions, the set's label mix gives the direction instead (a value is
+        // aligned where it is over-represented in the label), so the attribute still gets a measured gap and interval.
+        bool fromModel = false;
+        foreach (var b in pushes) fromModel |= b;
+        if (!fromModel) pushes = LabelMixPushes(n, labels, vc, act.ClassCount);
         var groups = new List<GroupAccuracy>();
         var tables = new List<Table2x2>();
         double wSum = 0, wDiff = 0, wVar = 0;
@@ -47,7 +46,9 @@ public static class GroupAccuracyAnalysis
             for (int v = 0; v < vc; v++)
             {
                 if (n[k, v] == 0) continue;
-                string relation = pushed[v] < 0 ? "neutral" : pushed[v] == k ? "aligned" : "conflicting";
+                bool toOwn = k < pushes.GetLength(1) && pushes[v, k], toOther = false;
+                for (int c = 0; c < pushes.GetLength(1); c++) toOther |= c != k && pushes[v, c];
+                string relation = toOwn ? "aligned" : toOther ? "conflicting" : "neutral";
                 if (n[k, v] >= policy.MinGroupSize)
                     groups.Add(new GroupAccuracy(table.Attributes[a].Name, table.Labels[k], table.Attributes[a].Values[v], n[k, v], correct[k, v], correct[k, v] / (double)n[k, v], relation));
                 if (relation == "aligned") { n1 += n[k, v]; c1 += correct[k, v]; }
@@ -64,7 +65,8 @@ public static class GroupAccuracyAnalysis
         if (wSum == 0) return (groups, null);
         double gap = wDiff / wSum, se = Math.Sqrt(wVar) / wSum;
         double? p = null;
-        string detail = "accuracy(aligned) − accuracy(conflicting), within label, Mantel–Haenszel weights";
+        string detail = "accuracy(aligned) − accuracy(conflicting), within label, Mantel–Haenszel weights; direction from "
+            + (fromModel ? "the model's decisions" : "the set's label mix (no value moves the model's decisions)");
         if (tables.Count > 0)
         {
             var cmh = CochranMantelHaenszel.Test(tables.ToArray(), continuityCorrection: true);
@@ -72,5 +74,20 @@ public static class GroupAccuracyAnalysis
             detail += $"; CMH χ² {cmh.ChiSquare:0.##}, common odds ratio {cmh.CommonOddsRatio:0.##}";
         }
         return (groups, new Measure("accuracy_gap", gap, used, gap - 1.96 * se, gap + 1.96 * se, p, detail));
+    }
+
+    /// <summary>A value pushes toward a label when it is over-represented in it (lift above 1).</summary>
+    private static bool[,] LabelMixPushes(int[,] n, int labels, int vc, int classes)
+    {
+        var pushes = new bool[vc, Math.Max(classes, labels)];
+        int total = 0;
+        var perLabel = new int[labels];
+        var perValue = new int[vc];
+        for (int k = 0; k < labels; k++)
+            for (int v = 0; v < vc; v++) { total += n[k, v]; perLabel[k] += n[k, v]; perValue[v] += n[k, v]; }
+        for (int k = 0; k < labels; k++)
+            for (int v = 0; v < vc; v++)
+                pushes[v, k] = perValue[v] > 0 && perLabel[k] > 0 && n[k, v] / (double)perValue[v] > perLabel[k] / (double)total;
+        return pushes;
     }
 }
