@@ -14,7 +14,8 @@ public sealed record FindingResponse(int Ordinal, string Layer, int Unit, string
     double? OddsRatio, double? QValue, string? Region, JsonElement Detail);
 
 /// <summary>A reviewer's decision on an audit, or on one of its findings (by ordinal).</summary>
-public sealed record AddReview(int? Finding, string? Reviewer, string? Decision, string? Note);
+/// <summary>A review: of one finding (its ordinal), of one cue group (`attribute=value`), or of the audit as a whole.</summary>
+public sealed record AddReview(int? Finding, string? Reviewer, string? Decision, string? Note, string? Cue = null);
 
 public static class ReviewEndpoints
 {
@@ -60,7 +61,10 @@ public static class ReviewEndpoints
             return ProblemHandling.Field("decision", $"must be one of {string.Join(", ", ReviewDecisions.All)}");
         if (body.Note is { Length: > 10_000 }) return ProblemHandling.Field("note", "longer than 10000 characters");
         if (body.Finding is < 0) return ProblemHandling.Field("finding", "must be a finding's ordinal (0 or more)");
-        var row = await reviews.AddAsync(http.User.TeamId(), id, body.Finding, body.Reviewer, body.Decision, body.Note ?? "", ct);
+        if (body.Cue is { } cue && (cue.Length > 400 || cue.IndexOf('=', StringComparison.Ordinal) <= 0))
+            return ProblemHandling.Field("cue", "must be attribute=value (at most 400 characters)");
+        if (body.Cue is not null && body.Finding is not null) return ProblemHandling.Field("cue", "give a finding or a cue, not both");
+        var row = await reviews.AddAsync(http.User.TeamId(), id, new NewReview(body.Finding, body.Cue, body.Reviewer, body.Decision, body.Note ?? ""), ct);
         return row is null ? NotFound(id) : TypedResults.Created($"/api/audits/{id}/reviews", row);
     }
 

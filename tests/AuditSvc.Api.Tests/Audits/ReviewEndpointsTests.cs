@@ -51,4 +51,20 @@ public sealed class ReviewEndpointsTests
 
         await AuditEndpointsTests.AssertFieldProblemAsync(response, "decision");
     }
+
+    [PgFact]
+    public async Task Review_OnACueGroup_IsListedWithTheCue()
+    {
+        await using var svc = await ServiceUnderTest.StartAsync(workers: 0);
+        using var client = await svc.ClientAsync("team-a");
+        var id = await AuditEndpointsTests.SubmitAsync(client, await Uploads.ModelAsync(client), await Uploads.ImageSetAsync(client, 2), 2);
+
+        var added = await client.PostAsJsonAsync($"/api/audits/{id}/reviews", new { cue = "stamp=yes", reviewer = "rita", decision = "spurious-cue", note = "corner stamp" });
+        var bad = await client.PostAsJsonAsync($"/api/audits/{id}/reviews", new { cue = "stamp", reviewer = "rita", decision = "acceptable" });
+
+        Assert.Equal(HttpStatusCode.Created, added.StatusCode);
+        await AuditEndpointsTests.AssertFieldProblemAsync(bad, "cue");
+        var listed = await client.GetFromJsonAsync<JsonElement>($"/api/audits/{id}/reviews");
+        Assert.Equal("stamp=yes", listed[0].GetProperty("cue").GetString());
+    }
 }
