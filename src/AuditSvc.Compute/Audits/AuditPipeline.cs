@@ -97,6 +97,8 @@ public static class AuditPipeline
             candidates.Add(new PlaceCandidate(c.Layer.Layer.Name, c.Channel, c.Region, Math.Round(c.PlaceShare, 4), c.LabelsCovered, measure,
                 c.Top.Take(AuditAnalysis.ShownExemplars).Select(p => AuditAssembler.ExemplarOf(table, model.Plan, c.Layer.Layer, p, -1)).ToList(), c.ExplainedBy));
         }
+        // Candidates whose patch moves decisions first: they are what a reviewer must look at.
+        candidates = candidates.OrderByDescending(c => c.Transplant?.Value ?? double.NegativeInfinity).ToList();
         var inputs = new AuditInputs(table, model.Plan, act, analysis, interventions, candidates, policy, passSeconds, clock.Elapsed.TotalSeconds, runs.Runs,
             pass.Options.BatchSize, DateTimeOffset.UtcNow)
         {

@@ -142,7 +142,9 @@ public static class AuditAssembler
         var inv = CultureInfo.InvariantCulture;
         var tested = new List<string>
         {
-            string.Create(inv, $"{x.Act.UnitCount} units in {x.Plan.ReadLayers.Count} layers ({string.Join(", ", x.Plan.ReadLayers.Select(l => l.Name))}) against every value of {x.Table.Attributes.Count} attribute columns, label held fixed ({x.Analysis.Scan.Tests.Length} tests, FDR {x.Policy.FdrLevel})"),
+            x.Table.Attributes.Count == 0
+                ? string.Create(inv, $"{x.Act.UnitCount} units in {x.Plan.ReadLayers.Count} layers ({string.Join(", ", x.Plan.ReadLayers.Select(l => l.Name))}); the set has no attribute columns, so only cues at a fixed place could be looked for")
+                : string.Create(inv, $"{x.Act.UnitCount} units in {x.Plan.ReadLayers.Count} layers ({string.Join(", ", x.Plan.ReadLayers.Select(l => l.Name))}) against every value of {x.Table.Attributes.Count} attribute columns, label held fixed ({x.Analysis.Scan.Tests.Length} tests, FDR {x.Policy.FdrLevel})"),
             string.Create(inv, $"accuracy per (label, attribute value) group of at least {x.Policy.MinGroupSize} images, cue-aligned against cue-conflicting"),
             string.Create(inv, $"occlusion and transplant of exemplar patches for cues found in spatial layers ({x.InterventionRuns} model runs)"),
             "units whose peaks sit at one fixed place across labels (cues with no column)",
@@ -153,6 +155,8 @@ public static class AuditAssembler
             "layers other than those read, and interactions between attributes",
             "how the model behaves on images unlike this set (other sites, devices, populations, time periods)",
         };
+        if (x.Table.Attributes.Count == 0)
+            notTested.Insert(0, "every cue that does not sit at a fixed place (background, colour cast, lighting, device): the set has no attribute columns to test them against; add columns such as site or camera");
         foreach (var a in attributes.Where(a => a.Confounded)) notTested.Add($"{a.Name}: confounded with the label, cannot be separated from the class in this set");
         foreach (var a in attributes.Where(a => a.Measures.Count == 0)) notTested.Add($"{a.Name}: no behavioural measure could be taken (groups too small or no local cue)");
         var cautions = new List<string>
