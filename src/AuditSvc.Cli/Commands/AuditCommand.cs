@@ -55,15 +55,7 @@ internal sealed class ModelFlags
 
     public ModelLoadOptions Read(ParseResult parse)
     {
-        int? w = null, h = null;
-        if (parse.GetValue(Size) is { } size)
-        {
-            var parts = size.ToLowerInvariant().Split('x');
-            if (parts.Length is < 1 or > 2 || !parts.All(p => int.TryParse(p, NumberStyles.None, CultureInfo.InvariantCulture, out var v) && v > 0))
-                throw new AuditInputException("--size", $"'{size}' is not N or WxH");
-            w = int.Parse(parts[0], CultureInfo.InvariantCulture);
-            h = int.Parse(parts[^1], CultureInfo.InvariantCulture);
-        }
+        var (w, h) = InspectCommand.ParseSize(parse.GetValue(Size));
         var recipe = new RecipeOverrides(
             Width: w, Height: h,
             Resize: parse.GetValue(CenterCrop) ? Core.Models.ResizeMode.ShorterSideCenterCrop : null,

@@ -48,9 +48,10 @@ public static class Interventions
         var results = new List<CueIntervention>();
         var mean = MeanColour(table, runs);
         int h = plan.Recipe.Height, w = plan.Recipe.Width;
-        var pushed = new Dictionary<(int, int), int>();
+        // One counting pass per attribute: where its values push the model's decisions.
+        var directions = new Dictionary<int, CuePushes>();
         int Pushed(int attribute, int value) =>
-            pushed.TryGetValue((attribute, value), out var k) ? k : pushed[(attribute, value)] = CueDirection.PushedClass(table, act, attribute, value);
+            (directions.TryGetValue(attribute, out var d) ? d : directions[attribute] = CueDirection.Of(table, act, attribute)).PushedClass(value);
         foreach (var link in analysis.Links)
         {
             ct.ThrowIfCancellationRequested();

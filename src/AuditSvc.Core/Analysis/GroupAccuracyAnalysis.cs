@@ -8,7 +8,7 @@ namespace AuditSvc.Core.Analysis;
 
 /// <summary>
 /// Accuracy per (label, attribute value) group, and the gap between cue-aligned and cue-conflicting images.
-/// Which classes a value pushes toward is read off the model's decisions (<see cref="CueDirection.Pushes"/>): an
+/// Which classes a value pushes toward is read off the model's decisions (<see cref="CueDirection.Of"/>): an
 /// image is cue-aligned when its value pushes toward its own label, cue-conflicting when only toward other classes,
 /// and neutral (left out of the gap) when toward none. The set's label mix would do for a set where the cue follows the
 /// label, but says nothing on a balanced set, which is the best set to audit on. The gap is taken within each label and pooled with Mantel–Haenszel
@@ -20,7 +20,8 @@ public static class GroupAccuracyAnalysis
     public static (List<GroupAccuracy> Groups, Measure? Gap) Compute(
         ItemTable table, ActivationResult act, AttributeLink link, AuditPolicy policy)
     {
-        var pushes = CueDirection.Pushes(table, act, link.Attribute);
+        var direction = CueDirection.Of(table, act, link.Attribute);
+        var pushes = direction.Pushes;
         int a = link.Attribute, labels = table.Labels.Count, vc = table.Attributes[a].Values.Count;
         var n = new int[labels, vc];
         var correct = new int[labels, vc];
@@ -33,8 +34,7 @@ public static class GroupAccuracyAnalysis
         }
         // When no value moves the model's decisions, the set's label mix gives the direction instead (a value is
         // aligned where it is over-represented in the label), so the attribute still gets a measured gap and interval.
-        bool fromModel = false;
-        foreach (var b in pushes) fromModel |= b;
+        bool fromModel = direction.Any();
         if (!fromModel) pushes = LabelMixPushes(n, labels, vc, act.ClassCount);
         var groups = new List<GroupAccuracy>();
         var tables = new List<Table2x2>();

@@ -55,14 +55,6 @@ public static class Regions
         return band > 0.5 * peaks.Length ? Border : Spread;
     }
 
-    /// <summary>Share of peaks in the most common grid cell.</summary>
-    public static double TopCellShare(LayerInfo layer, ReadOnlySpan<Peak> peaks, int inputHeight, int inputWidth)
-    {
-        if (peaks.Length == 0) return 0;
-        var grid = Grid(layer, peaks, inputHeight, inputWidth);
-        return grid.Max() / (double)peaks.Length;
-    }
-
     private static (double Y, double X) Center(LayerInfo layer, in Peak p, int h, int w) =>
         (Math.Clamp(layer.Field.Y.Center(p.Y), 0, h - 1), Math.Clamp(layer.Field.X.Center(p.X), 0, w - 1));
 }
