@@ -36,7 +36,8 @@ internal static class AuditRunner
         foreach (var p in r.ImageSet.Problems.Where(p => p.Row is null)) Console.WriteLine($"  note: {p.Reason}");
         foreach (var a in r.Attributes.OrderByDescending(a => a.Leakage ?? -1))
             Console.WriteLine($"  {a.Name,-16} leakage {(a.Leakage is { } l ? l.ToString("0.000", System.Globalization.CultureInfo.InvariantCulture) : "  n/a")}  {a.Verdict,-10} findings {a.Findings}{(a.Note is null ? "" : "  (" + a.Note + ")")}");
-        Console.WriteLine($"findings: {r.Findings.Count} units in {r.CueGroups.Count} cue groups; fixed-place candidates: {r.Candidates.Count}");
+        var inferred = r.Candidates.Where(c => c.Attribute is not null).Select(c => c.Attribute!).ToList();
+        Console.WriteLine($"findings: {r.Findings.Count} units in {r.CueGroups.Count} cue groups; fixed-place patterns: {r.Candidates.Count}, measured as place cues: {(inferred.Count == 0 ? "none" : string.Join(", ", inferred))}");
         Console.WriteLine($"audit.json: {json}");
         Console.WriteLine($"report:     {html}");
     }

@@ -85,21 +85,15 @@ public static class AuditPipeline
             throw new AuditInputException(table.Report.Source, $"no image could be pushed through the model ({act.Problems.Count} failed; first: {act.Problems.FirstOrDefault()?.File}: {act.Problems.FirstOrDefault()?.Reason})");
         stage?.Invoke(AuditStage.Analysis, "rank tests of every unit against every attribute value");
         var analysis = AuditAnalysis.Analyze(table, model.Plan, act, policy, ct);
-        stage?.Invoke(AuditStage.Interventions, $"{analysis.Findings.Count} findings; occlusion and transplant");
+        var (extended, places) = PlaceCues.Infer(table, model.Plan, act, analysis, policy.MinGroupSize);
+        analysis = AuditAnalysis.WithInferred(extended, act, analysis, policy);
+        var targets = CueTargets.Choose(extended, act, analysis, places, policy);
+        stage?.Invoke(AuditStage.Interventions, $"{analysis.Findings.Count} findings, {places.Count(p => p.Attribute >= 0)} place cues; cue regions and paired interventions for {targets.Count} cues");
         var clock = Stopwatch.StartNew();
         using var runs = new ImageRuns(pass);
-        var interventions = Interventions.Run(runs, table, model.Plan, act, analysis, policy, ct);
-        var candidates = new List<PlaceCandidate>();
-        foreach (var c in PlaceCandidates.Find(table, model.Plan, act, analysis))
-        {
-            ct.ThrowIfCancellationRequested();
-            var measure = c.ExplainedBy is null ? Interventions.MeasurePlace(runs, table, model.Plan, act, c, policy.InterventionBudget) : null;
-            candidates.Add(new PlaceCandidate(c.Layer.Layer.Name, c.Channel, c.Region, Math.Round(c.PlaceShare, 4), c.LabelsCovered, measure,
-                c.Top.Take(AuditAnalysis.ShownExemplars).Select(p => AuditAssembler.ExemplarOf(table, model.Plan, c.Layer.Layer, p, -1)).ToList(), c.ExplainedBy));
-        }
-        // Candidates whose patch moves decisions first: they are what a reviewer must look at.
-        candidates = candidates.OrderByDescending(c => c.Transplant?.Value ?? double.NegativeInfinity).ToList();
-        var inputs = new AuditInputs(table, model.Plan, act, analysis, interventions, candidates, policy, passSeconds, clock.Elapsed.TotalSeconds, runs.Runs,
+        var evidence = Interventions.Run(runs, extended, act, targets, policy, ct);
+        table = extended;
+        var inputs = new AuditInputs(table, model.Plan, act, analysis, evidence, places, policy, passSeconds, clock.Elapsed.TotalSeconds, runs.Runs,
             pass.Options.BatchSize, DateTimeOffset.UtcNow)
         {
             InferenceThreads = pass.Options.InferenceThreads,

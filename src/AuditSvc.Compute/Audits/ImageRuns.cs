@@ -69,20 +69,70 @@ public sealed class ImageRuns(ActivationPass pass) : IDisposable
         return (predicted, scores);
     }
 
-    /// <summary>Copies the pixels of <paramref name="box"/> from one image into another at the same place.</summary>
-    public static void Paste(Image<Rgb24> from, Image<Rgb24> to, Core.Models.Box box)
+    /// <summary>Input height: every fitted image has it.</summary>
+    public int Height => pass.Preprocessor.Recipe.Height;
+
+    /// <summary>Input width.</summary>
+    public int Width => pass.Preprocessor.Recipe.Width;
+
+    /// <summary>Copies the pixels under <paramref name="mask"/> (row-major, input size) from one image into another.</summary>
+    public static void Paste(Image<Rgb24> from, Image<Rgb24> to, bool[] mask)
     {
-        for (int y = box.Y; y < box.Y + box.Height; y++)
-            for (int x = box.X; x < box.X + box.Width; x++)
-                to[x, y] = from[x, y];
+        int w = to.Width;
+        for (int y = 0; y < to.Height; y++)
+            for (int x = 0; x < w; x++)
+                if (mask[y * w + x]) to[x, y] = from[x, y];
     }
 
-    /// <summary>Fills <paramref name="box"/> with one colour.</summary>
-    public static void Fill(Image<Rgb24> image, Core.Models.Box box, Rgb24 colour)
+    /// <summary>Fills the pixels under <paramref name="mask"/> with one colour.</summary>
+    public static void Fill(Image<Rgb24> image, bool[] mask, Rgb24 colour)
     {
-        for (int y = box.Y; y < box.Y + box.Height; y++)
-            for (int x = box.X; x < box.X + box.Width; x++)
-                image[x, y] = colour;
+        int w = image.Width;
+        for (int y = 0; y < image.Height; y++)
+            for (int x = 0; x < w; x++)
+                if (mask[y * w + x]) image[x, y] = colour;
+    }
+
+    /// <summary>
+    /// Moves each channel's mean and spread of <paramref name="image"/> to those of <paramref name="like"/>
+    /// (x' = (x − μ) / σ · σ' + μ', clamped to 0..255): a global colour cue carried over without its content.
+    /// </summary>
+    public static void MatchColour(Image<Rgb24> image, Image<Rgb24> like)
+    {
+        var (m0, s0) = ChannelStats(image);
+        var (m1, s1) = ChannelStats(like);
+        var gain = new double[3];
+        for (int c = 0; c < 3; c++) gain[c] = s0[c] > 1e-6 ? s1[c] / s0[c] : 1;
+        for (int y = 0; y < image.Height; y++)
+            for (int x = 0; x < image.Width; x++)
+            {
+                var p = image[x, y];
+                image[x, y] = new Rgb24(Level((p.R - m0[0]) * gain[0] + m1[0]), Level((p.G - m0[1]) * gain[1] + m1[1]), Level((p.B - m0[2]) * gain[2] + m1[2]));
+            }
+    }
+
+    private static byte Level(double v) => (byte)Math.Clamp(Math.Round(v), 0, 255);
+
+    private static (double[] Mean, double[] Sd) ChannelStats(Image<Rgb24> image)
+    {
+        var sum = new double[3];
+        var sq = new double[3];
+        double n = image.Width * (double)image.Height;
+        for (int y = 0; y < image.Height; y++)
+            for (int x = 0; x < image.Width; x++)
+            {
+                var p = image[x, y];
+                sum[0] += p.R; sum[1] += p.G; sum[2] += p.B;
+                sq[0] += p.R * (double)p.R; sq[1] += p.G * (double)p.G; sq[2] += p.B * (double)p.B;
+            }
+        var mean = new double[3];
+        var sd = new double[3];
+        for (int c = 0; c < 3; c++)
+        {
+            mean[c] = sum[c] / n;
+            sd[c] = Math.Sqrt(Math.Max(0, sq[c] / n - mean[c] * mean[c]));
+        }
+        return (mean, sd);
     }
 
     public void Dispose()

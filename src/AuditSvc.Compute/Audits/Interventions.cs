@@ -1,32 +1,30 @@
+using System.Globalization;
+using System.Runtime.InteropServices;
 using AuditSvc.Core.Activations;
 using AuditSvc.Core.Analysis;
 using AuditSvc.Core.Audits;
 using AuditSvc.Core.Gate;
 using AuditSvc.Core.ImageSets;
-using AuditSvc.Core.Models;
-using AuditSvc.Core.Statistics;
 using SixLabors.ImageSharp;
 using SixLabors.ImageSharp.PixelFormats;
 
 namespace AuditSvc.Compute.Audits;
 
-
 /// <summary>
-/// Does the model's decision follow the cue? For the strongest findings of a cue, on spatial layers whose peak
-/// box is a part of the image: occlusion fills the exemplars' peak boxes with the set's mean colour and counts
-/// predictions of the cue's class that leave it; transplant pastes exemplar patches at the same place into
-/// images of other labels that lack the cue and counts predictions that move to the cue's class, net of a
-/// control that pastes the same box from another such image. Every rate comes with its sample size and a
-/// Wilson interval; the run count is capped by the policy's budget.
+/// Does the model's decision follow the cue? For each cue: its region is read from the pixels
+/// (<see cref="CueRegions"/>); a local region gets paired transplant and occlusion, a global one a paired colour
+/// transfer, none gets nothing (the observational gap stands alone). Which images, and the statistics, are Core's
+/// (<see cref="InterventionDesign"/>, <see cref="PairedMeasures"/>); this class only edits pixels and runs the model.
 /// </summary>
 public static class Interventions
 {
-    /// <summary>Boxes larger than this share of the input are not a local cue: no patch is moved.</summary>
-    public const double MaxBoxShare = 0.5;
+    /// <summary>Images per label and side that feed a cue region's pixel map.</summary>
+    public const int RegionImagesPerSide = 120;
 
-    private const int UnitsPerCue = 3;
-    private const int DonorsPerCue = 24;
-    private const int MinMisled = 5;
+    /// <summary>Fewest pairs worth a test: below this McNemar's exact test cannot reach the gate level after adjustment.</summary>
+    public const int MinPairs = 8;
+
+    private const int Seed = 20261202;
 
     public static Rgb24 MeanColour(ItemTable table, ImageRuns runs, int sample = 100)
     {
@@ -43,169 +41,175 @@ public static class Interventions
         return n == 0 ? new Rgb24(128, 128, 128) : new Rgb24((byte)(r / n), (byte)(g / n), (byte)(b / n));
     }
 
-    public static List<CueIntervention> Run(ImageRuns runs, ItemTable table, ModelPlan plan, ActivationResult act, AnalysisResult analysis, AuditPolicy policy, CancellationToken ct)
+    /// <summary>Region and paired measures for every target, within the policy's budget per attribute.</summary>
+    public static List<CueEvidence> Run(ImageRuns runs, ItemTable table, ActivationResult act, IReadOnlyList<CueTarget> targets, AuditPolicy policy, CancellationToken ct)
     {
-        var results = new List<CueIntervention>();
+        var results = new List<CueEvidence>();
         var mean = MeanColour(table, runs);
-        int h = plan.Recipe.Height, w = plan.Recipe.Width;
-        // One counting pass per attribute: where its values push the model's decisions.
-        var directions = new Dictionary<int, CuePushes>();
-        int Pushed(int attribute, int value) =>
-            (directions.TryGetValue(attribute, out var d) ? d : directions[attribute] = CueDirection.Of(table, act, attribute)).PushedClass(value);
-        foreach (var link in analysis.Links)
+        foreach (var group in targets.GroupBy(t => t.Attribute))
         {
-            ct.ThrowIfCancellationRequested();
-            var local = analysis.Findings
-                .Where(f => f.Attribute == link.Attribute && f.Layer.Layer.Rank == 4 && f.Top.Length > 0
-                            && Pushed(f.Attribute, f.Value) >= 0
-                            && BoxShare(Regions.PeakBox(f.Layer.Layer, f.Top[0], h, w), h, w) <= MaxBoxShare)
-                .ToList();
-            if (local.Count == 0) continue;
-            int value = local[0].Value;
-            int cue = Pushed(link.Attribute, value);
-            // The deepest local units see the whole cue; a first-layer unit sees a few pixels of it.
-            var units = local.Where(f => f.Value == value)
-                .OrderByDescending(f => BoxShare(Regions.PeakBox(f.Layer.Layer, f.Top[0], h, w), h, w))
-                .ThenByDescending(f => f.Test.Auroc).Take(UnitsPerCue).ToList();
-            var donors = Donors(table, units, link.Attribute, value, h, w);
-            if (donors.Count == 0) continue;
-            int before = runs.Runs;
-            var occlusion = Occlude(runs, table, plan, act, link.Attribute, value, cue, mean, units[0], policy.InterventionBudget / 5);
-            var transplant = Transplant(runs, table, act, donors, link.Attribute, value, cue, policy.InterventionBudget * 2 / 5);
-            results.Add(new CueIntervention(link.Attribute, value, cue, occlusion, transplant, runs.Runs - before));
+            int budget = policy.InterventionBudget / group.Count();
+            foreach (var target in group)
+            {
+                ct.ThrowIfCancellationRequested();
+                results.Add(RunOne(runs, table, act, target, budget, mean));
+            }
         }
         return results;
     }
 
-    public static double BoxShare(Box box, int h, int w) => box.Width * (double)box.Height / (h * (double)w);
-
-    /// <summary>Exemplars of the cue's strongest units that carry the value, with their peak boxes, best first.</summary>
-    public static List<(int Item, Box Box)> Donors(ItemTable table, IReadOnlyList<FindingCore> units, int attribute, int value, int h, int w)
+    private static CueEvidence RunOne(ImageRuns runs, ItemTable table, ActivationResult act, CueTarget target, int budget, Rgb24 mean)
     {
-        var donors = new List<(int, Box)>();
-        var seen = new HashSet<int>();
-        int depth = units.Max(u => u.Top.Length);
-        for (int r = 0; r < depth && donors.Count < DonorsPerCue; r++)
-            foreach (var u in units)
-            {
-                if (r >= u.Top.Length) continue;
-                var p = u.Top[r];
-                if (table.Items[p.Item].AttributeValues[attribute] != value || !seen.Add(p.Item)) continue;
-                donors.Add((p.Item, Regions.PeakBox(u.Layer.Layer, p, h, w)));
-                if (donors.Count >= DonorsPerCue) break;
-            }
-        return donors;
-    }
-
-    /// <summary>
-    /// Occlusion where the cue misleads: images with the cue, of another label, predicted as the cue's class. Their
-    /// box at the cue's usual place (the strongest unit's modal peak) is filled with the set's mean colour; the rate
-    /// is the share whose prediction leaves the cue's class. With fewer than <see cref="MinMisled"/> such images it
-    /// falls back to every image with the cue predicted as the cue's class, and says so.
-    /// </summary>
-    private static Measure? Occlude(ImageRuns runs, ItemTable table, ModelPlan plan, ActivationResult act, int attribute, int value, int cue, Rgb24 mean, FindingCore unit, int budget)
-    {
-        var (my, mx, _) = PlaceCandidates.ModalPlace(unit.Top);
-        var box = unit.Layer.Layer.Field.BoxAt(my, mx, plan.Recipe.Height, plan.Recipe.Width);
-        bool Carries(ImageItem i) => act.Scored[i.Index] && i.AttributeValues[attribute] == value && act.Predicted[i.Index] == cue;
-        var misled = table.Items.Where(i => Carries(i) && i.Label != cue).Select(i => i.Index).ToList();
-        bool fallback = misled.Count < MinMisled;
-        var chosen = (fallback ? table.Items.Where(Carries).Select(i => i.Index).ToList() : misled).Take(Math.Max(1, budget)).ToList();
-        if (chosen.Count == 0) return null;
-        var edited = new List<Image<Rgb24>>();
-        var kept = new List<int>();
-        foreach (var item in chosen)
+        int n = table.Items.Count, h = runs.Height, w = runs.Width;
+        var labels = new int[n];
+        var values = new int[n];
+        foreach (var item in table.Items)
         {
-            var img = runs.Fitted(table.Items[item].Path, item)?.Clone();
-            if (img is null) continue;
-            ImageRuns.Fill(img, box, mean);
-            edited.Add(img);
-            kept.Add(item);
+            labels[item.Index] = item.Label;
+            values[item.Index] = act.Scored[item.Index] ? item.AttributeValues[target.Attribute] : -1;
         }
-        if (edited.Count == 0) return null;
-        var (pred, scores) = runs.Run(edited, (unit.Layer, unit.Channel));
-        foreach (var img in edited) img.Dispose();
-        int left = pred.Count(p => p != cue), restored = kept.Where((item, i) => pred[i] == table.Items[item].Label).Count();
-        var before = new float[table.Items.Count];
-        act.Scores.ReadUnits(unit.Unit, 1, before);
-        double fall = 0;
-        int fallN = 0;
-        for (int i = 0; i < kept.Count; i++)
-            if (before[kept[i]] > 0) { fall += 1 - scores[i] / before[kept[i]]; fallN++; }
-        var (lo, hi) = WilsonInterval.Compute(left, edited.Count);
-        var who = fallback
-            ? "images with the cue predicted as the cue's class (too few of other labels to test on)"
-            : "images of other labels that carry the cue and are predicted as the cue's class";
-        return new Measure("occlusion", left / (double)edited.Count, edited.Count, lo, hi, null,
-            $"box ({box.X},{box.Y},{box.Width}×{box.Height}) filled with the set's mean colour on {who}; {left}/{edited.Count} left the cue's class, {restored} to their own label" +
-            (fallN > 0 ? $"; unit {unit.Layer.Layer.Name}#{unit.Channel} score fell by {fall / fallN:P0} on average" : ""));
+        var region = RegionOf(runs, table, labels, values, target.Value, h, w);
+        var attr = table.Attributes[target.Attribute];
+        string cue = $"{attr.Name}={attr.Values[target.Value]}";
+        string toward = target.CueClass >= 0 ? $"moved to {table.Labels[target.CueClass]}" : "changed prediction";
+        int before = runs.Runs;
+        var measures = new List<Measure?>();
+        string? note = null;
+        switch (region.Kind)
+        {
+            case CueRegions.None:
+                note = $"{cue}: no pixel differs between images with and without it (within labels), so nothing can be moved; only the observational measure stands";
+                break;
+            case CueRegions.Local:
+            {
+                var where = RegionText(region);
+                var pairs = InterventionDesign.Transplant(labels, values, act.Predicted, target.Value, target.CueClass, budget / 4, Seed + target.Attribute);
+                if (pairs.Count >= MinPairs)
+                    measures.Add(Transplant(runs, table, act, pairs, region.Mask, target.CueClass, $"{cue}: region {where} pasted from an image with the value (treated) or from one of the same label without it (control) into images without it", toward));
+                var occl = InterventionDesign.Occlusion(labels, values, act.Predicted, target.Value, budget / 4, Seed + 7 + target.Attribute);
+                if (occl.Count >= MinPairs)
+                    measures.Add(Occlude(runs, table, act, occl, region.Mask, mean, $"{cue}: region {where} filled with the set's mean colour on images with the value (treated) and on images of the same label without it (control)"));
+                if (measures.Count(m => m is not null) < 2) note = $"{cue}: fewer than {MinPairs} eligible pairs for " + (measures.All(m => m is null) ? "transplant and occlusion" : "one of the interventions");
+                break;
+            }
+            default:
+            {
+                note = string.Create(CultureInfo.InvariantCulture, $"{cue}: the region covers {region.Share:P0} of the image, so it is not a local cue: no patch was moved; its colour statistics were transferred instead");
+                var pairs = InterventionDesign.Transplant(labels, values, act.Predicted, target.Value, target.CueClass, budget / 2, Seed + 13 + target.Attribute);
+                if (pairs.Count >= MinPairs)
+                    measures.Add(ColourTransfer(runs, table, act, pairs, target.CueClass, $"{cue}: each channel's mean and spread moved to those of an image with the value (treated) or of one of the same label without it (control), on images without it", toward));
+                break;
+            }
+        }
+        return new CueEvidence(target.Attribute, target.Value, target.CueClass, region, measures.OfType<Measure>().ToList(), runs.Runs - before, note);
     }
 
-    private static Measure? Transplant(ImageRuns runs, ItemTable table, ActivationResult act, List<(int Item, Box Box)> donors, int attribute, int value, int cue, int budget)
+    private static string RegionText(CueRegion r) => r.Box is { } b
+        ? string.Create(CultureInfo.InvariantCulture, $"({b.X},{b.Y} {b.Width}×{b.Height}, {r.Share:P0} of the image)")
+        : "";
+
+    /// <summary>The cue region of one value, from up to <see cref="RegionImagesPerSide"/> images per label and side.</summary>
+    public static CueRegion RegionOf(ImageRuns runs, ItemTable table, int[] labels, int[] values, int value, int h, int w)
     {
-        var rng = new Random(20261202);
-        var recipients = table.Items
-            .Where(i => act.Scored[i.Index] && i.Label != cue && act.Predicted[i.Index] != cue && i.AttributeValues[attribute] >= 0 && i.AttributeValues[attribute] != value)
-            .Select(i => i.Index).OrderBy(_ => rng.Next()).Take(Math.Max(2, budget / 2)).ToList();
-        return TransplantInto(runs, table, act, donors, recipients, cue, "images of other labels without the cue");
+        var groups = new PixelGroups(h, w);
+        var rng = new Random(Seed);
+        var byGroup = new Dictionary<(int Label, bool With), List<int>>();
+        for (int i = 0; i < labels.Length; i++)
+        {
+            if (values[i] < 0) continue;
+            var key = (labels[i], values[i] == value);
+            if (!byGroup.TryGetValue(key, out var list)) byGroup[key] = list = [];
+            list.Add(i);
+        }
+        // Labels with the most images on their thinner side first: they carry the map.
+        var order = byGroup.Keys.Select(k => k.Label).Distinct()
+            .Where(k => byGroup.ContainsKey((k, true)) && byGroup.ContainsKey((k, false)))
+            .OrderByDescending(k => Math.Min(byGroup[(k, true)].Count, byGroup[(k, false)].Count)).ThenBy(k => k)
+            .Take(PixelGroups.MaxLabels).ToList();
+        var bytes = new byte[h * w * 3];
+        foreach (var k in order)
+            foreach (var side in new[] { true, false })
+            {
+                var items = byGroup[(k, side)].OrderBy(_ => rng.Next()).Take(RegionImagesPerSide);
+                foreach (var i in items)
+                {
+                    var img = runs.Fitted(table.Items[i].Path, i);
+                    if (img is null) continue;
+                    img.CopyPixelDataTo(MemoryMarshal.Cast<byte, Rgb24>(bytes.AsSpan()));
+                    groups.Add(k, side, bytes);
+                }
+            }
+        return CueRegions.Find(groups);
     }
 
-    /// <summary>
-    /// Transplant for a fixed-place candidate: recipients are images whose score on the unit is at or below its median
-    /// (they lack the pattern). No class is known for a cue nobody named, so any change of prediction counts, net of
-    /// the neutral patch; a class read off the exemplars' predictions would be confounded by other cues they share.
-    /// </summary>
-    public static Measure? MeasurePlace(ImageRuns runs, ItemTable table, ModelPlan plan, ActivationResult act, PlaceCandidateCore c, int budget)
-    {
-        var scores = new float[table.Items.Count];
-        act.Scores.ReadUnits(c.Unit, 1, scores);
-        var valid = scores.Where(float.IsFinite).Order().ToArray();
-        if (valid.Length == 0) return null;
-        float median = valid[valid.Length / 2];
-        var rng = new Random(20261203);
-        var recipients = table.Items
-            .Where(i => act.Scored[i.Index] && scores[i.Index] <= median && !c.Top.Any(t => t.Item == i.Index))
-            .Select(i => i.Index).OrderBy(_ => rng.Next()).Take(Math.Max(2, budget / 2)).ToList();
-        var donors = c.Top.Take(DonorsPerCue).Select(p => (p.Item, Regions.PeakBox(c.Layer.Layer, p, plan.Recipe.Height, plan.Recipe.Width))).ToList();
-        return TransplantInto(runs, table, act, donors, recipients, null, "images that score low on the unit");
-    }
+    private static Measure? Transplant(ImageRuns runs, ItemTable table, ActivationResult act, List<InterventionPair> pairs, bool[] mask, int cueClass, string design, string toward) =>
+        RunPairs(runs, table, act, pairs, (target, donor) => ImageRuns.Paste(donor, target, mask), cueClass, "transplant", design, toward);
 
-    /// <param name="cue">The class the cue stands for; null for a cue nobody named, where any change of prediction counts.</param>
-    private static Measure? TransplantInto(ImageRuns runs, ItemTable table, ActivationResult act, List<(int Item, Box Box)> donors, List<int> recipients, int? cue, string who)
+    private static Measure? ColourTransfer(ImageRuns runs, ItemTable table, ActivationResult act, List<InterventionPair> pairs, int cueClass, string design, string toward) =>
+        RunPairs(runs, table, act, pairs, (target, donor) => ImageRuns.MatchColour(target, donor), cueClass, "colour_transfer", design, toward);
+
+    /// <summary>Treated: recipient edited with the donor; control: the same recipient edited with the control donor.</summary>
+    private static Measure? RunPairs(ImageRuns runs, ItemTable table, ActivationResult act, List<InterventionPair> pairs, Action<Image<Rgb24>, Image<Rgb24>> edit,
+        int cueClass, string name, string design, string toward)
     {
-        if (recipients.Count < 2) return null;
         var treated = new List<Image<Rgb24>>();
         var control = new List<Image<Rgb24>>();
         var kept = new List<int>();
-        for (int j = 0; j < recipients.Count; j++)
+        foreach (var p in pairs)
         {
-            var target = runs.Fitted(table.Items[recipients[j]].Path, recipients[j]);
-            var donor = donors[j % donors.Count];
-            var source = runs.Fitted(table.Items[donor.Item].Path, donor.Item);
-            // The control patch: the same box from another recipient, an image that lacks the cue too.
-            int other = recipients[(j + 1) % recipients.Count];
-            var neutral = runs.Fitted(table.Items[other].Path, other);
-            if (target is null || source is null || neutral is null) continue;
+            var target = runs.Fitted(table.Items[p.Recipient].Path, p.Recipient);
+            var donor = runs.Fitted(table.Items[p.Donor].Path, p.Donor);
+            var other = runs.Fitted(table.Items[p.ControlDonor].Path, p.ControlDonor);
+            if (target is null || donor is null || other is null) continue;
             var t = target.Clone();
-            ImageRuns.Paste(source, t, donor.Box);
+            edit(t, donor);
             treated.Add(t);
             var c = target.Clone();
-            ImageRuns.Paste(neutral, c, donor.Box);
+            edit(c, other);
             control.Add(c);
-            kept.Add(recipients[j]);
+            kept.Add(p.Recipient);
         }
-        if (treated.Count == 0) return null;
-        bool Moved(int prediction, int i) => cue is { } k ? prediction == k : prediction != act.Predicted[kept[i]];
-        var moved = runs.Run(treated).Predicted.Where(Moved).Count();
-        var movedControl = runs.Run(control).Predicted.Where(Moved).Count();
-        foreach (var i in treated.Concat(control)) i.Dispose();
-        int n = treated.Count;
-        double rate = moved / (double)n, baseRate = movedControl / (double)n, net = rate - baseRate;
-        var (lo, hi) = WilsonInterval.Compute(moved, n);
-        // Interval of the net rate: the treated interval shifted by the control rate (the control is a reference level).
-        var p = Hypergeometric.UpperTail(2 * n, moved + movedControl, n, moved);
-        string what = cue is { } cls ? $"moved to the cue's class ({table.Labels[cls]})" : "changed their prediction";
-        return new Measure("transplant", net, n, lo - baseRate, hi - baseRate, p,
-            $"exemplar patch pasted at the same place into {who}; {moved}/{n} {what}, {movedControl}/{n} with a neutral patch from the same box");
+        if (kept.Count < MinPairs) { Dispose(treated, control); return null; }
+        var pt = runs.Run(treated).Predicted;
+        var pc = runs.Run(control).Predicted;
+        Dispose(treated, control);
+        bool Moved(int pred, int i) => cueClass >= 0 ? pred == cueClass : pred != act.Predicted[kept[i]];
+        var m = PairedMeasures.Of(name, pt.Select(Moved).ToList(), pc.Select(Moved).ToList(), toward, design);
+        int anyT = pt.Where((p, i) => p != act.Predicted[kept[i]]).Count(), anyC = pc.Where((p, i) => p != act.Predicted[kept[i]]).Count();
+        return m is null ? null : m with { Detail = m.Detail + string.Create(CultureInfo.InvariantCulture, $"; any change of prediction: {anyT}/{kept.Count} treated, {anyC}/{kept.Count} control") };
+    }
+
+    /// <summary>Treated: the image with the value, region filled; control: a same-label image without it, same fill. Outcome: prediction changes.</summary>
+    private static Measure? Occlude(ImageRuns runs, ItemTable table, ActivationResult act, List<InterventionPair> pairs, bool[] mask, Rgb24 mean, string design)
+    {
+        var treated = new List<Image<Rgb24>>();
+        var control = new List<Image<Rgb24>>();
+        var kept = new List<InterventionPair>();
+        foreach (var p in pairs)
+        {
+            var a = runs.Fitted(table.Items[p.Recipient].Path, p.Recipient);
+            var b = runs.Fitted(table.Items[p.ControlDonor].Path, p.ControlDonor);
+            if (a is null || b is null) continue;
+            var t = a.Clone();
+            ImageRuns.Fill(t, mask, mean);
+            treated.Add(t);
+            var c = b.Clone();
+            ImageRuns.Fill(c, mask, mean);
+            control.Add(c);
+            kept.Add(p);
+        }
+        if (kept.Count < MinPairs) { Dispose(treated, control); return null; }
+        var pt = runs.Run(treated).Predicted;
+        var pc = runs.Run(control).Predicted;
+        Dispose(treated, control);
+        return PairedMeasures.Of("occlusion",
+            pt.Select((p, i) => p != act.Predicted[kept[i].Recipient]).ToList(),
+            pc.Select((p, i) => p != act.Predicted[kept[i].ControlDonor]).ToList(), "changed prediction", design);
+    }
+
+    private static void Dispose(List<Image<Rgb24>> a, List<Image<Rgb24>> b)
+    {
+        foreach (var i in a) i.Dispose();
+        foreach (var i in b) i.Dispose();
     }
 }

@@ -63,6 +63,28 @@ public static class AuditAnalysis
     }
 
     /// <summary>
+    /// The analysis over a table that <see cref="PlaceCues.Infer"/> extended with place cues: their link to the label,
+    /// group accuracies and gap are added; the columns' results stay as they were.
+    /// </summary>
+    public static AnalysisResult WithInferred(ItemTable extended, ActivationResult act, AnalysisResult analysis, AuditPolicy policy)
+    {
+        ArgumentNullException.ThrowIfNull(extended);
+        ArgumentNullException.ThrowIfNull(analysis);
+        if (extended.Attributes.Count == analysis.Links.Length) return analysis;
+        var all = AttributeAssociation.Compute(extended, act.Scored, policy);
+        var links = analysis.Links.Concat(all.Skip(analysis.Links.Length)).ToArray();
+        var groups = analysis.Groups.ToList();
+        var gaps = new Dictionary<int, Measure>(analysis.Gaps);
+        foreach (var link in links.Skip(analysis.Links.Length))
+        {
+            var (g, gap) = GroupAccuracyAnalysis.Compute(extended, act, link, policy);
+            groups.AddRange(g);
+            if (gap is not null) gaps[link.Attribute] = gap;
+        }
+        return analysis with { Links = links, Groups = groups, Gaps = gaps };
+    }
+
+    /// <summary>
     /// Strongest first within each cue (attribute value), then the cues taken in turn, so that the first findings a
     /// reviewer reads cover every cue instead of forty units of the loudest one.
     /// </summary>

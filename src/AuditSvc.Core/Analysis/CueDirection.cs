@@ -41,15 +41,27 @@ public static class CueDirection
     /// </summary>
     public static CuePushes Of(ItemTable table, ActivationResult act, int attribute)
     {
-        int vc = table.Attributes[attribute].Values.Count, k = act.ClassCount;
+        var values = new int[table.Items.Count];
+        foreach (var item in table.Items) values[item.Index] = act.Scored[item.Index] ? item.AttributeValues[attribute] : -1;
+        return Of(values, act.Predicted, table.Attributes[attribute].Values.Count, act.ClassCount, null);
+    }
+
+    /// <summary>
+    /// The same over plain arrays: <paramref name="values"/>[i] is item i's value (-1 missing or unscored),
+    /// <paramref name="predicted"/>[i] its predicted class (-1 unscored); only items where
+    /// <paramref name="include"/> is true (all when null) are counted, which is how cross-fitting reads one half.
+    /// </summary>
+    public static CuePushes Of(int[] values, int[] predicted, int valueCount, int classCount, Func<int, bool>? include)
+    {
+        int vc = valueCount, k = classCount;
         var counts = new int[vc, k];
         var perValue = new int[vc];
         var perClass = new int[k];
         int total = 0;
-        foreach (var item in table.Items)
+        for (int i = 0; i < values.Length; i++)
         {
-            int v = item.AttributeValues[attribute], p = act.Predicted[item.Index];
-            if (!act.Scored[item.Index] || v < 0 || p < 0) continue;
+            int v = values[i], p = predicted[i];
+            if (v < 0 || p < 0 || p >= k || (include is not null && !include(i))) continue;
             counts[v, p]++;
             perValue[v]++;
             perClass[p]++;

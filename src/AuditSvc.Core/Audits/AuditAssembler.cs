@@ -13,8 +13,8 @@ public sealed record AuditInputs(
     ModelPlan Plan,
     ActivationResult Act,
     AnalysisResult Analysis,
-    IReadOnlyList<CueIntervention> Interventions,
-    IReadOnlyList<PlaceCandidate> Candidates,
+    IReadOnlyList<CueEvidence> Evidence,
+    IReadOnlyList<PlaceCue> PlaceCues,
     AuditPolicy Policy,
     double PassSeconds,
     double InterventionSeconds,
@@ -38,48 +38,62 @@ public static class AuditAssembler
     public static AuditResult Build(AuditInputs x)
     {
         var t = x.Table;
+        var inferred = x.PlaceCues.Where(c => c.Attribute >= 0).ToDictionary(c => c.Attribute);
+        // Measures of every attribute first: the gate adjusts their p-values as one family.
+        var perAttribute = new List<IReadOnlyList<Measure>>();
+        foreach (var link in x.Analysis.Links)
+        {
+            var measures = new List<Measure>();
+            if (x.Analysis.Gaps.TryGetValue(link.Attribute, out var gap))
+                measures.Add(inferred.ContainsKey(link.Attribute)
+                    ? gap with { Gating = false, Detail = gap.Detail + "; description only: the attribute is read off the model's own units, so a gap may come from the object those units also see" }
+                    : gap);
+            foreach (var e in x.Evidence.Where(e => e.Attribute == link.Attribute)) measures.AddRange(e.Measures);
+            perAttribute.Add(measures);
+        }
+        var adjusted = Verdicts.Adjust(perAttribute);
         var attributes = new List<AttributeReport>();
         var reasons = new List<VerdictReason>();
         bool block = false;
-        foreach (var link in x.Analysis.Links)
+        for (int li = 0; li < x.Analysis.Links.Length; li++)
         {
+            var link = x.Analysis.Links[li];
             var name = t.Attributes[link.Attribute].Name;
-            var measures = new List<Measure>();
-            if (x.Analysis.Gaps.TryGetValue(link.Attribute, out var gap)) measures.Add(gap);
-            foreach (var iv in x.Interventions.Where(i => i.Attribute == link.Attribute))
-            {
-                var cue = $"{name}={t.Attributes[link.Attribute].Values[iv.Value]} → {t.Labels[iv.CueClass]}";
-                if (iv.Occlusion is { } o) measures.Add(o with { Detail = cue + ": " + o.Detail });
-                if (iv.Transplant is { } tr) measures.Add(tr with { Detail = cue + ": " + tr.Detail });
-            }
+            var measures = adjusted[li];
             var (verdict, attrVerdict, leakage, why) = Verdicts.Decide(new AttributeEvidence(name, link.Confounded, measures), x.Policy);
             block |= verdict == Verdicts.Block;
             reasons.AddRange(why);
             int tests = x.Analysis.Scan.Tests.Count(s => s.Attribute == link.Attribute);
             int findings = x.Analysis.Findings.Count(f => f.Attribute == link.Attribute);
             string? note = link.Confounded ? "confounded with the label: collect counter-examples"
-                : findings > 0 && (leakage ?? 0) < x.Policy.ThresholdFor(name) ? "units notice this cue, but the model's decisions do not measurably follow it"
+                : inferred.TryGetValue(link.Attribute, out var place)
+                    ? string.Create(CultureInfo.InvariantCulture, $"no attribute column names this cue: {place.Units.Count} live units peak at the {place.Region} across {place.LabelsCovered} labels; an image carries it when {place.Layer.Layer.Name}#{place.Channel} scores above {place.Split:0.###} ({place.Carriers} images)")
+                : findings > 0 && verdict == Verdicts.Pass ? "units notice this cue, but the model's decisions do not measurably follow it"
                 : null;
+            var cues = x.Evidence.Where(e => e.Attribute == link.Attribute).Select(e => CueReportOf(t, x.Plan, e)).ToList();
             attributes.Add(new AttributeReport(name, Round(link.CramersV), link.Confounded, x.Policy.IsAllowed(name), leakage, x.Policy.ThresholdFor(name),
-                attrVerdict, measures, tests, findings, note));
-        }
-        // Unexplained candidates join the verdict when moving their patch moves decisions more than a neutral
-        // patch does (one-sided test of treated against control below 0.05); a single stray move does not count.
-        foreach (var c in x.Candidates.Where(c => c.ExplainedBy is null && c.Transplant is { PValue: < 0.05 }))
-        {
-            var name = "place:" + c.Region;
-            if (attributes.Any(a => a.Name == name)) continue;
-            var (verdict, attrVerdict, leakage, why) = Verdicts.Decide(new AttributeEvidence(name, false, [c.Transplant!]), x.Policy);
-            block |= verdict == Verdicts.Block;
-            reasons.AddRange(why);
-            attributes.Add(new AttributeReport(name, 0, false, x.Policy.IsAllowed(name), leakage, x.Policy.ThresholdFor(name), attrVerdict, [c.Transplant!], 0, 0,
-                $"no attribute column names this cue: units {c.Layer}#{c.Unit} and alike peak at the {c.Region} across {c.LabelsCovered} labels"));
+                attrVerdict, measures, tests, findings, note) { Inferred = inferred.ContainsKey(link.Attribute), Cues = cues });
         }
         var findingsOut = x.Analysis.Findings.Select(f => ToFinding(x, f)).ToList();
+        var candidates = x.PlaceCues.Select(c => CandidateOf(x, c)).ToList();
         return new AuditResult(SchemaVersion, Tool, x.CreatedAt, block ? Verdicts.Block : Verdicts.Pass, reasons,
             ModelSummaryOf(x.Plan), SetSummaryOf(t, x.Act), PassSummaryOf(x), attributes, findingsOut, CueGroupsOf(findingsOut),
-            x.Candidates, x.Analysis.Groups, CoverageOf(x, attributes), x.Policy);
+            candidates, x.Analysis.Groups, CoverageOf(x, attributes), x.Policy);
     }
+
+    private static CueReport CueReportOf(ItemTable t, ModelPlan plan, CueEvidence e)
+    {
+        var r = e.Region;
+        var region = new RegionReport(r.Kind, r.Box is { } b ? BoxDto.From(b) : null, Round(r.Share), Round(r.Peak), Round(r.Threshold), r.ImagesWith, r.ImagesWithout,
+            plan.Recipe.Width, plan.Recipe.Height, r.MapWidth, r.MapHeight, r.Map);
+        return new CueReport(t.Attributes[e.Attribute].Values[e.Value], e.CueClass >= 0 ? t.Labels[e.CueClass] : null, region, e.Runs, e.Note);
+    }
+
+    private static PlaceCandidate CandidateOf(AuditInputs x, PlaceCue c) =>
+        new(c.Name, c.Attribute >= 0 ? c.Name : null, c.Layer.Layer.Name, c.Channel, c.Region, Round(c.PlaceShare), c.LabelsCovered,
+            c.Units.Take(20).Select(u => { var (l, ch) = x.Act.Locate(u); return $"{l.Layer.Name}#{ch}"; }).ToList(),
+            Round(c.Split), Round(c.Separability), c.Carriers,
+            c.Top.Take(AuditAnalysis.ShownExemplars).Select(p => ExemplarOf(x.Table, x.Plan, c.Layer.Layer, p, -1)).ToList(), c.ExplainedBy);
 
     public static Exemplar ExemplarOf(ItemTable t, ModelPlan plan, LayerInfo layer, Peak p, int attribute)
     {
@@ -140,14 +154,15 @@ public static class AuditAssembler
     private static Coverage CoverageOf(AuditInputs x, List<AttributeReport> attributes)
     {
         var inv = CultureInfo.InvariantCulture;
+        int columns = x.Table.Attributes.Count - x.PlaceCues.Count(c => c.Attribute >= 0);
         var tested = new List<string>
         {
-            x.Table.Attributes.Count == 0
+            columns == 0
                 ? string.Create(inv, $"{x.Act.UnitCount} units in {x.Plan.ReadLayers.Count} layers ({string.Join(", ", x.Plan.ReadLayers.Select(l => l.Name))}); the set has no attribute columns, so only cues at a fixed place could be looked for")
-                : string.Create(inv, $"{x.Act.UnitCount} units in {x.Plan.ReadLayers.Count} layers ({string.Join(", ", x.Plan.ReadLayers.Select(l => l.Name))}) against every value of {x.Table.Attributes.Count} attribute columns, label held fixed ({x.Analysis.Scan.Tests.Length} tests, FDR {x.Policy.FdrLevel})"),
-            string.Create(inv, $"accuracy per (label, attribute value) group of at least {x.Policy.MinGroupSize} images, cue-aligned against cue-conflicting"),
-            string.Create(inv, $"occlusion and transplant of exemplar patches for cues found in spatial layers ({x.InterventionRuns} model runs)"),
-            "units whose peaks sit at one fixed place across labels (cues with no column)",
+                : string.Create(inv, $"{x.Act.UnitCount} units in {x.Plan.ReadLayers.Count} layers ({string.Join(", ", x.Plan.ReadLayers.Select(l => l.Name))}) against every value of {columns} attribute columns, label held fixed ({x.Analysis.Scan.Tests.Length} tests, FDR {x.Policy.FdrLevel})"),
+            "accuracy of cue-aligned against cue-conflicting images within labels (direction learnt on one half of the set, measured on the other)",
+            string.Create(inv, $"for every value with findings: its region read from the pixels, then paired interventions with a matched control (transplant and occlusion where the region is local, colour transfer where it is global; {x.InterventionRuns} model runs)"),
+            "patterns that several live units agree on at one fixed place, as inferred attributes (cues with no column)",
         };
         var notTested = new List<string>
         {
@@ -155,10 +170,11 @@ public static class AuditAssembler
             "layers other than those read, and interactions between attributes",
             "how the model behaves on images unlike this set (other sites, devices, populations, time periods)",
         };
-        if (x.Table.Attributes.Count == 0)
+        if (columns == 0)
             notTested.Insert(0, "every cue that does not sit at a fixed place (background, colour cast, lighting, device): the set has no attribute columns to test them against; add columns such as site or camera");
         foreach (var a in attributes.Where(a => a.Confounded)) notTested.Add($"{a.Name}: confounded with the label, cannot be separated from the class in this set");
         foreach (var a in attributes.Where(a => a.Measures.Count == 0)) notTested.Add($"{a.Name}: no behavioural measure could be taken (groups too small or no local cue)");
+        foreach (var c in attributes.SelectMany(a => a.Cues.Where(c => c.Note is not null).Select(c => c.Note!))) notTested.Add(c);
         var cautions = new List<string>
         {
             "An audit can show that a model leans on a cue; it cannot prove that no shortcut exists. A pass means only that none of the tested cues reached the policy's threshold on this image set.",

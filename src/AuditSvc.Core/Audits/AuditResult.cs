@@ -67,8 +67,19 @@ public sealed record PassSummary(int Images, int Scored, int Units, int TopN, do
     public string? Reduce { get; init; }
 }
 
-/// <summary>A behavioural measure of reliance on an attribute: a rate or a gap with its sample size and interval.</summary>
-public sealed record Measure(string Name, double Value, int N, double Low, double High, double? PValue, string Detail);
+/// <summary>
+/// A behavioural measure of reliance on an attribute: an effect (a gap, or a treated − control rate) with its sample
+/// size, 95% interval, the p-value of its test of "no effect" and, once the gate has seen every measure of the audit,
+/// that p-value adjusted across them (Benjamini–Hochberg).
+/// </summary>
+public sealed record Measure(string Name, double Value, int N, double Low, double High, double? PValue, string Detail)
+{
+    /// <summary>The p-value adjusted across the audit's gating measures; null for a measure outside that family.</summary>
+    public double? QValue { get; init; }
+
+    /// <summary>False for a measure shown as description only (it can never block).</summary>
+    public bool Gating { get; init; } = true;
+}
 
 public sealed record AttributeReport(
     string Name,
@@ -81,7 +92,23 @@ public sealed record AttributeReport(
     IReadOnlyList<Measure> Measures,
     int Tests,
     int Findings,
-    string? Note);
+    string? Note)
+{
+    /// <summary>True for a place cue: an attribute the audit inferred from its units, with no column behind it.</summary>
+    public bool Inferred { get; init; }
+
+    /// <summary>The attribute's values that were intervened on: where each sits and what was (not) run.</summary>
+    public IReadOnlyList<CueReport> Cues { get; init; } = [];
+}
+
+/// <summary>Where a cue sits in the input (read from the pixels) and the pixel map it was read from.</summary>
+/// <param name="Kind">local (patch interventions), global (colour transfer) or none (no pixel differs).</param>
+/// <param name="Map">The label-stratified standardised difference, max-pooled to MapWidth × MapHeight cells, 0..100 of Peak.</param>
+public sealed record RegionReport(string Kind, BoxDto? Box, double Share, double Peak, double Threshold, int ImagesWith, int ImagesWithout, int InputWidth, int InputHeight, int MapWidth, int MapHeight, int[] Map);
+
+/// <summary>One value of an attribute that the intervention pass took up.</summary>
+/// <param name="PushesToward">The class the value pushes the model's decisions toward, or null when none (any change of prediction counts).</param>
+public sealed record CueReport(string Value, string? PushesToward, RegionReport Region, int Runs, string? Note);
 
 public sealed record BoxDto(int X, int Y, int Width, int Height)
 {
@@ -115,8 +142,15 @@ public sealed record Finding(
 /// <summary>Units that share one cue (attribute value), so a reviewer reads one cue at a time.</summary>
 public sealed record CueGroup(string Attribute, string Value, int Units, IReadOnlyList<string> Layers, double BestAuroc, string Region, IReadOnlyList<string> UnitRefs);
 
-/// <summary>A unit whose peaks sit at one fixed place across images of several labels: a cue nobody labelled.</summary>
-public sealed record PlaceCandidate(string Layer, int Unit, string Region, double PlaceShare, int LabelsCovered, Measure? Transplant, IReadOnlyList<Exemplar> Exemplars, string? ExplainedBy);
+/// <summary>
+/// A pattern that several live units agree on at one fixed place: a cue nobody labelled. When no column explains it,
+/// it became the inferred attribute <see cref="Attribute"/> (measured like any column, listed among the attributes).
+/// </summary>
+/// <param name="Attribute">The inferred attribute's name; null when a column explains the pattern or too few images carry it.</param>
+/// <param name="Split">Score of the unit above which an image carries the pattern (Otsu's split).</param>
+/// <param name="Separability">Otsu's between-class share of the variance at that split, 0..1.</param>
+public sealed record PlaceCandidate(string Name, string? Attribute, string Layer, int Unit, string Region, double PlaceShare, int LabelsCovered,
+    IReadOnlyList<string> UnitRefs, double Split, double Separability, int Carriers, IReadOnlyList<Exemplar> Exemplars, string? ExplainedBy);
 
 /// <summary>Accuracy in one (label, value) group; Relation is aligned, conflicting or neutral (see GroupAccuracyAnalysis).</summary>
 public sealed record GroupAccuracy(string Attribute, string Label, string Value, int N, int Correct, double Accuracy, string Relation);

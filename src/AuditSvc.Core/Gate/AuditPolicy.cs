@@ -44,8 +44,14 @@ public sealed record AuditPolicy
 
     public ConfoundedAction Confounded { get; init; } = ConfoundedAction.Block;
 
-    /// <summary>Most model runs the intervention pass may spend on one attribute.</summary>
-    public int InterventionBudget { get; init; } = 300;
+    /// <summary>
+    /// Level at which a behavioural measure's test must reject "no effect", after Benjamini–Hochberg adjustment across
+    /// the audit's measures, for the measure to block.
+    /// </summary>
+    public double GateLevel { get; init; } = 0.05;
+
+    /// <summary>Most model runs the intervention pass may spend on one attribute (treated and control runs both count).</summary>
+    public int InterventionBudget { get; init; } = 600;
 
     /// <summary>When comparing with an earlier audit: a rise of leakage at or above this blocks (null: off).</summary>
     public double? MaxLeakageRise { get; init; }

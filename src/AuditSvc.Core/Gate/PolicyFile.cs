@@ -58,6 +58,7 @@ public static class PolicyFile
         }
         Range("leakage_threshold", p.LeakageThreshold, 0, 1, openLow: true);
         Range("fdr_level", p.FdrLevel, 0, 0.5, openLow: true);
+        Range("gate_level", p.GateLevel, 0, 0.5, openLow: true);
         Range("min_auroc", p.MinAuroc, 0.5, 1);
         Range("min_group_size", p.MinGroupSize, 1, 1_000_000);
         Range("min_per_side", p.MinPerSide, 1, 1_000_000);

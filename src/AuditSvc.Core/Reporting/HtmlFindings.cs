@@ -58,9 +58,10 @@ public static partial class HtmlReport
 
     private static void Candidates(StringBuilder sb, AuditResult r, IExemplarImages images)
     {
-        sb.Append("<section id=\"candidates\"><h2>Units that fire at one fixed place</h2>\n")
-          .Append("<p class=\"muted\">Peaks at the same place across images of several labels point to a cue nobody labelled (a stamp, a frame, a ruler). ")
-          .Append("Transplant: the share of predictions that change when the patch is pasted into other images.</p>\n");
+        sb.Append("<section id=\"candidates\"><h2>Patterns at one fixed place</h2>\n")
+          .Append("<p class=\"muted\">Several live units peaking at the same place across images of several labels point to a cue nobody labelled (a stamp, a frame, a ruler). ")
+          .Append("Unless a column explains it, the pattern becomes an inferred attribute (an image carries it when the most bimodal of those units scores above Otsu's split) ")
+          .Append("and is measured like a column: see its row under attributes.</p>\n");
         if (r.Candidates.Count == 0)
         {
             sb.Append("<p class=\"muted\">None.</p></section>\n");
@@ -68,16 +69,15 @@ public static partial class HtmlReport
         }
         foreach (var c in r.Candidates)
         {
-            sb.Append("<article class=\"finding\"><h3><span class=\"mono\">").Append(E(c.Layer)).Append(" / unit ").Append(c.Unit).Append("</span> ")
-              .Append("<span class=\"cue\">").Append(E(c.Region)).Append("</span>");
+            sb.Append("<article class=\"finding\"><h3><span class=\"cue\">").Append(E(c.Name)).Append("</span> <span class=\"mono small\">")
+              .Append(E(c.Layer)).Append(" / unit ").Append(c.Unit).Append("</span>");
             if (c.ExplainedBy is not null) sb.Append(" <span class=\"tag\">explained by ").Append(E(c.ExplainedBy)).Append("</span>");
-            sb.Append("</h3>\n<div class=\"stats\">").Append(Stat("place share", Pct(c.PlaceShare))).Append(Stat("labels", Int(c.LabelsCovered)));
-            if (c.Transplant is { } t)
-                sb.Append(Stat("transplant", Num(t.Value))).Append(Stat("95% interval", Interval(t.Low, t.High))).Append(Stat("n", Int(t.N)));
-            else
-                sb.Append(Stat("transplant", "not run"));
-            sb.Append("</div>\n<div class=\"finding-body\">");
-            // Whole images: for a fixed-place unit the point is where on the image it fires.
+            else if (c.Attribute is null) sb.Append(" <span class=\"tag\">too few images on one side to measure</span>");
+            sb.Append("</h3>\n<div class=\"stats\">").Append(Stat("agreeing units", Int(c.UnitRefs.Count))).Append(Stat("place share", Pct(c.PlaceShare)))
+              .Append(Stat("labels", Int(c.LabelsCovered))).Append(Stat("split", Num(c.Split))).Append(Stat("separability", Num(c.Separability)))
+              .Append(Stat("images carrying it", Int(c.Carriers)))
+              .Append("</div>\n<p class=\"mono small\">").Append(E(string.Join(", ", c.UnitRefs))).Append("</p>\n<div class=\"finding-body\">");
+            // Whole images: for a fixed-place pattern the point is where on the image it fires.
             ExemplarGrid(sb, c.Exemplars, images, whole: true);
             sb.Append("</div></article>\n");
         }

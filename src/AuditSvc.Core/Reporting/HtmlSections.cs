@@ -9,8 +9,9 @@ public static partial class HtmlReport
     private static void Attributes(StringBuilder sb, AuditResult r)
     {
         sb.Append("<section id=\"attributes\"><h2>Attributes and leakage</h2>\n")
-          .Append("<p class=\"muted\">Leakage is the largest behavioural measure of an attribute (accuracy gap, transplant and occlusion rates), 0 to 1; ")
-          .Append("the line on each bar marks the threshold.</p>\n");
+          .Append("<p class=\"muted\">Leakage is the largest behavioural effect of an attribute, 0 to 1: the accuracy gap between cue-aligned and cue-conflicting images, ")
+          .Append("and, for each value units respond to, treated − control rates of paired interventions (transplant, occlusion or colour transfer). ")
+          .Append("A measure blocks when it reaches the threshold (the line on each bar), its test rejects \u201cno effect\u201d after adjustment across the audit, and its interval lies above 0.</p>\n");
         if (r.Attributes.Count == 0)
         {
             sb.Append("<p class=\"muted\">The image set has no attribute columns.</p></section>\n");
@@ -31,6 +32,7 @@ public static partial class HtmlReport
             sb.Append("</td><td class=\"num\">").Append(Num(a.Threshold)).Append("</td>")
               .Append("<td><span class=\"pill ").Append(Class(a.Verdict)).Append("\">").Append(E(a.Verdict)).Append("</span></td><td>");
             Measures(sb, a.Measures);
+            CueRegionsOf(sb, a);
             sb.Append("</td></tr>\n");
         }
         sb.Append("</tbody></table></section>\n");
@@ -52,12 +54,13 @@ public static partial class HtmlReport
             sb.Append("<span class=\"muted\">none measured</span>");
             return;
         }
-        sb.Append("<table class=\"inner\"><thead><tr><th>measure</th><th class=\"num\">value</th><th class=\"num\">n</th><th class=\"num\">95% interval</th><th class=\"num\">p</th></tr></thead><tbody>");
+        sb.Append("<table class=\"inner\"><thead><tr><th>measure</th><th class=\"num\">effect</th><th class=\"num\">n</th><th class=\"num\">95% interval</th><th class=\"num\">p</th><th class=\"num\">adjusted p</th></tr></thead><tbody>");
         foreach (var m in measures)
         {
-            sb.Append("<tr title=\"").Append(E(m.Detail)).Append("\"><td>").Append(E(m.Name)).Append("</td><td class=\"num\">").Append(Num(m.Value))
+            sb.Append("<tr><td>").Append(E(m.Name)).Append(m.Gating ? "" : " <span class=\"tag\">description only</span>").Append("</td><td class=\"num\">").Append(Num(m.Value))
               .Append("</td><td class=\"num\">").Append(Int(m.N)).Append("</td><td class=\"num\">").Append(Interval(m.Low, m.High))
-              .Append("</td><td class=\"num\">").Append(P(m.PValue)).Append("</td></tr>");
+              .Append("</td><td class=\"num\">").Append(P(m.PValue)).Append("</td><td class=\"num\">").Append(P(m.QValue)).Append("</td></tr>")
+              .Append("<tr class=\"detail\"><td colspan=\"6\" class=\"small muted\">").Append(E(m.Detail)).Append("</td></tr>");
         }
         sb.Append("</tbody></table>");
     }

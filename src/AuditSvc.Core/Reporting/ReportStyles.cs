@@ -43,6 +43,13 @@ table.inner { margin: 0; font-size: 12.5px; }
 table.inner th { background: none; padding: 2px 6px; }
 table.inner td { padding: 2px 6px; border-bottom: 1px dotted var(--line); }
 table.inner td:first-child { white-space: nowrap; }
+table.inner tr.detail td { white-space: normal; border-bottom: 1px solid var(--line); padding-bottom: 4px; }
+.regions { display: flex; flex-wrap: wrap; gap: 12px; margin-top: 8px; }
+figure.region { margin: 0; max-width: 260px; font-size: 12px; }
+svg.regionmap { display: block; border: 1px solid var(--line); image-rendering: pixelated; }
+svg.regionmap rect { fill: #5b2a86; }
+svg.regionmap rect.bg { fill: #faf7f0; }
+svg.regionmap rect.box { fill: none; stroke: #d2691e; stroke-width: 0.6; stroke-dasharray: 1.2 0.6; }
 .tag { display: inline-block; padding: 0 6px; border-radius: 3px; background: #eef1f4; border: 1px solid var(--line); font-size: 12px; }
 .tag.warn { background: var(--warn-bg); color: var(--warn); border-color: #f0d58c; }
 .pill { display: inline-block; padding: 1px 10px; border-radius: 10px; font-weight: 700; font-size: 12px; text-transform: uppercase; }

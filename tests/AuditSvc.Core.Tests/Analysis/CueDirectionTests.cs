@@ -39,7 +39,10 @@ public class CueDirectionTests
         var (groups, gap) = GroupAccuracyAnalysis.Compute(table, act, link, new AuditSvc.Core.Gate.AuditPolicy());
         Assert.NotNull(gap);
         // Labels a and b lose everything to the stamp; c, the stamp's own class, is right either way: (1 + 1 + 0) / 3.
-        Assert.Equal(2.0 / 3.0, gap!.Value, 6);
+        // Cross-fitting weighs each (half, label) stratum by its own counts, so the halves' unequal sizes move the
+        // pooled value off 2/3 in the third decimal.
+        Assert.Equal(2.0 / 3.0, gap!.Value, 0.01);
+        Assert.True(gap.Low > 0.5, $"interval {gap.Low}..{gap.High}");
         Assert.Equal("conflicting", groups.Single(g => g.Label == "a" && g.Value == "yes").Relation);
         Assert.Equal("aligned", groups.Single(g => g.Label == "c" && g.Value == "yes").Relation);
     }

@@ -34,5 +34,5 @@ public class RegionsTests
 
     [Fact]
     public void ModalPlace_CountsNeighbours() =>
-        Assert.Equal((7, 7, 0.8), PlaceCandidates.ModalPlace(At((7, 7), (7, 6), (6, 7), (7, 7), (0, 0))));
+        Assert.Equal((7, 7, 0.8), PlaceCues.ModalPlace(At((7, 7), (7, 6), (6, 7), (7, 7), (0, 0))));
 }

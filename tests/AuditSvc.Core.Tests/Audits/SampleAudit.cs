@@ -20,16 +20,24 @@ internal static class SampleAudit
             Item: i * 7, Image: $"images/leaf_{i:000}.png", Label: labels[i % 3], Value: i % 4 == 0 ? "no" : "yes",
             Score: 12.5f - i, Box: new BoxDto(140 + i % 3, 4 + i % 2, 70, 70))).ToList();
 
-        var gap = new Measure("accuracy gap", 0.41, 212, 0.30, 0.52, 3.2e-9, "aligned 0.97 vs conflicting 0.56, CMH over 3 labels");
-        var transplant = new Measure("transplant", 0.37, 90, 0.28, 0.47, null, "stamp patch pasted into 90 images without it");
-        var occlusion = new Measure("occlusion", 0.12, 90, 0.07, 0.20, null, "peak box filled with the set mean");
+        var gap = new Measure("accuracy_gap", 0.41, 212, 0.30, 0.52, 3.2e-9, "aligned 0.97 vs conflicting 0.56 over 6 strata") { QValue = 6.4e-9 };
+        var transplant = new Measure("transplant", 0.37, 90, 0.28, 0.47, 1e-7, "stamp region pasted into 90 images without it") { QValue = 3e-7 };
+        var occlusion = new Measure("occlusion", 0.12, 90, 0.07, 0.20, 0.004, "stamp region filled with the set mean") { QValue = 0.008 };
+        var region = new RegionReport("local", new BoxDto(180, 200, 40, 20), 0.016, 4.2, 0.6, 300, 900, 224, 224, 4, 4, [0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 10, 0, 0, 20, 100]);
 
         var attributes = new List<AttributeReport>
         {
-            new("stamp", 0.62, false, false, 0.41, 0.2, "block", [gap, transplant, occlusion], 384, findings, null),
-            new("site", 0.18, false, true, 0.05, 0.2, "pass", [new Measure("accuracy gap", 0.05, 400, -0.02, 0.12, 0.21, "aligned vs conflicting")], 512, 0, "allowed by policy"),
+            new("stamp", 0.62, false, false, 0.41, 0.2, "block", [gap, transplant, occlusion], 384, findings, null)
+            {
+                Cues = [new CueReport("yes", NastyLabel, region, 360, null)],
+            },
+            new("site", 0.18, false, true, 0.05, 0.2, "pass", [new Measure("accuracy_gap", 0.05, 400, -0.02, 0.12, 0.21, "aligned vs conflicting")], 512, 0, "allowed by policy"),
             new("camera", 0.97, true, false, null, 0.2, "block", [], 0, 0, "nearly determines the label: collect counter-examples"),
-            new("backdrop", double.NaN, false, false, 0.02, 0.3, "pass", [new Measure("transplant", 0.02, 50, 0.0, 0.1, null, "")], 64, 0, null),
+            new("backdrop", double.NaN, false, false, 0.02, 0.3, "pass", [new Measure("colour_transfer", 0.02, 50, 0.0, 0.1, null, "")], 64, 0, null)
+            {
+                Cues = [new CueReport("striped", null, region with { Kind = "global", Share = 0.7 }, 100, "backdrop=striped: the region covers 70% of the image")],
+            },
+            new("place:bottom-left", 0, false, false, 0.3, 0.2, "block", [transplant with { QValue = 1e-6 }, gap with { Gating = false }], 0, 0, "no attribute column names this cue") { Inferred = true },
         };
 
         var list = Enumerable.Range(0, findings).Select(i => new Finding(
@@ -61,7 +69,11 @@ internal static class SampleAudit
             Attributes: attributes,
             Findings: list,
             CueGroups: [new CueGroup("stamp", "yes", findings, ["layer3/conv2", "layer4/conv1"], 0.97, "top-right", ["layer3/conv2/10", "layer4/conv1/11"])],
-            Candidates: [new PlaceCandidate("layer3/conv2", 77, "bottom-left", 0.81, 3, transplant, exemplars.Take(4).ToList(), null)],
+            Candidates:
+            [
+                new PlaceCandidate("place:bottom-left", "place:bottom-left", "layer3/conv2", 77, "bottom-left", 0.81, 3, ["layer3/conv2#77", "layer4/conv1#3"], 2.5, 0.71, 140, exemplars.Take(4).ToList(), null),
+                new PlaceCandidate("place:top-right", null, "layer3/conv2", 12, "top-right", 0.7, 2, ["layer3/conv2#12", "layer3/conv2#13"], 1.5, 0.5, 80, exemplars.Take(2).ToList(), "stamp=yes"),
+            ],
             Groups:
             [
                 new GroupAccuracy("stamp", "healthy", "yes", 400, 392, 0.98, "aligned"),
