@@ -101,7 +101,9 @@ public static class Interventions
                 break;
             }
         }
-        return new CueEvidence(target.Attribute, target.Value, target.CueClass, region, measures.OfType<Measure>().ToList(), runs.Runs - before, note);
+        string label = target.CueClass >= 0 ? $"{cue} → {table.Labels[target.CueClass]}" : cue;
+        return new CueEvidence(target.Attribute, target.Value, target.CueClass, region,
+            measures.OfType<Measure>().Select(m => m with { Cue = label }).ToList(), runs.Runs - before, note);
     }
 
     private static string RegionText(CueRegion r) => r.Box is { } b

@@ -105,11 +105,13 @@ public static class PlaceCues
                 carries[item.Index] = s > bestSplit ? 1 : 0;
                 if (s > bestSplit) yes++; else no++;
             }
+            // Two places that mark the same images are one pattern seen by units with different fields: keep the first.
+            if (added.Any(a => Agreement(a, carries) >= 0.9)) continue;
             var units = new[] { strongest.Unit }.Concat(cl.Select(i => candidates[i].Unit).Where(u => u != strongest.Unit)).ToList();
             var explainedBy = ExplainedBy(table, analysis, units);
             string region = Regions.CellNames[Math.Clamp((int)(strongest.Cy * 3 / h), 0, 2) * 3 + Math.Clamp((int)(strongest.Cx * 3 / w), 0, 2)];
             string name = "place:" + region;
-            for (int k = 2; columns.Any(c => c.Name == name); k++) name = $"place:{region}-{k}";
+            for (int k = 2; columns.Any(c => c.Name == name) || cues.Any(c => c.Name == name); k++) name = $"place:{region}-{k}";
             bool usable = explainedBy is null && yes >= minGroupSize && no >= minGroupSize;
             int attribute = -1;
             if (usable)
@@ -141,6 +143,19 @@ public static class PlaceCues
             if (near > bestCount || (near == bestCount && counts[(y, x)] > counts[best])) { bestCount = near; best = (y, x); }
         }
         return (best.y, best.x, top.Length == 0 ? 0 : bestCount / (double)top.Length);
+    }
+
+    /// <summary>Jaccard agreement of two carrier vectors on "yes" (-1 = unknown is ignored).</summary>
+    private static double Agreement(int[] a, int[] b)
+    {
+        int both = 0, either = 0;
+        for (int i = 0; i < a.Length; i++)
+        {
+            bool x = a[i] == 1, y = b[i] == 1;
+            if (x && y) both++;
+            if (x || y) either++;
+        }
+        return either == 0 ? 0 : both / (double)either;
     }
 
     /// <summary>Live: the ninth exemplar scores above the unit's median over the set (DESIGN: dead and flat units are dropped).</summary>

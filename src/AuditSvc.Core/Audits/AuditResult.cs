@@ -79,6 +79,9 @@ public sealed record Measure(string Name, double Value, int N, double Low, doubl
 
     /// <summary>False for a measure shown as description only (it can never block).</summary>
     public bool Gating { get; init; } = true;
+
+    /// <summary>The cue an intervention was run on ("stamp=yes → mouldy"); null for the attribute-wide gap.</summary>
+    public string? Cue { get; init; }
 }
 
 public sealed record AttributeReport(

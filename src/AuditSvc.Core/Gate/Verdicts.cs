@@ -60,7 +60,7 @@ public static class Verdicts
         {
             reasons.Add(new VerdictReason("leakage", e.Name, trigger.Name, trigger.Value, threshold,
                 string.Create(System.Globalization.CultureInfo.InvariantCulture,
-                    $"{e.Name}: {trigger.Name} {trigger.Value:0.###} (95% interval {trigger.Low:0.###} to {trigger.High:0.###}, n = {trigger.N}, adjusted p {trigger.QValue:0.###E+0}) reaches the threshold {threshold:0.###}")));
+                    $"{trigger.Cue ?? e.Name}: {trigger.Name} {trigger.Value:0.###} (95% interval {trigger.Low:0.###} to {trigger.High:0.###}, n = {trigger.N}, adjusted p {PText(trigger.QValue)}) reaches the threshold {threshold:0.###}")));
             return (Block, Block, leakage, reasons);
         }
         if (e.Confounded)
@@ -72,6 +72,15 @@ public static class Verdicts
         }
         return (Pass, Pass, leakage, reasons);
     }
+
+    /// <summary>A p-value in a sentence: below the smallest double it is "&lt; 1e-300", not 0.</summary>
+    public static string PText(double? p) => p switch
+    {
+        null => "n/a",
+        < 1e-300 => "< 1e-300",
+        < 0.001 => p.Value.ToString("0.#E+0", System.Globalization.CultureInfo.InvariantCulture),
+        _ => p.Value.ToString("0.###", System.Globalization.CultureInfo.InvariantCulture),
+    };
 
     /// <summary>Blocks when an attribute's leakage rose by the policy's limit or more since an earlier audit.</summary>
     public static VerdictReason? Rise(string attribute, double? before, double? now, AuditPolicy policy)

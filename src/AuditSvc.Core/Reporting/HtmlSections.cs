@@ -57,7 +57,8 @@ public static partial class HtmlReport
         sb.Append("<table class=\"inner\"><thead><tr><th>measure</th><th class=\"num\">effect</th><th class=\"num\">n</th><th class=\"num\">95% interval</th><th class=\"num\">p</th><th class=\"num\">adjusted p</th></tr></thead><tbody>");
         foreach (var m in measures)
         {
-            sb.Append("<tr><td>").Append(E(m.Name)).Append(m.Gating ? "" : " <span class=\"tag\">description only</span>").Append("</td><td class=\"num\">").Append(Num(m.Value))
+            sb.Append("<tr><td>").Append(E(m.Name)).Append(m.Cue is null ? "" : " <span class=\"cue\">" + E(m.Cue) + "</span>")
+              .Append(m.Gating ? "" : " <span class=\"tag\">description only</span>").Append("</td><td class=\"num\">").Append(Num(m.Value))
               .Append("</td><td class=\"num\">").Append(Int(m.N)).Append("</td><td class=\"num\">").Append(Interval(m.Low, m.High))
               .Append("</td><td class=\"num\">").Append(P(m.PValue)).Append("</td><td class=\"num\">").Append(P(m.QValue)).Append("</td></tr>")
               .Append("<tr class=\"detail\"><td colspan=\"6\" class=\"small muted\">").Append(E(m.Detail)).Append("</td></tr>");
