@@ -43,7 +43,10 @@ table.inner { margin: 0; font-size: 12.5px; }
 table.inner th { background: none; padding: 2px 6px; }
 table.inner td { padding: 2px 6px; border-bottom: 1px dotted var(--line); }
 table.inner td:first-child { white-space: nowrap; }
-table.inner tr.detail td { white-space: normal; border-bottom: 1px solid var(--line); padding-bottom: 4px; }
+table.inner tr.detail td { white-space: normal; overflow-wrap: anywhere; border-bottom: 1px solid var(--line); padding-bottom: 4px; }
+table.attrs { width: 100%; table-layout: fixed; }
+table.attrs th:last-child, table.attrs td:last-child { width: 52%; }
+table.attrs table.inner { width: 100%; }
 .regions { display: flex; flex-wrap: wrap; gap: 12px; margin-top: 8px; }
 figure.region { margin: 0; max-width: 260px; font-size: 12px; }
 svg.regionmap { display: block; border: 1px solid var(--line); image-rendering: pixelated; }

@@ -1,3 +1,4 @@
+using Xunit.Abstractions;
 using AuditSvc.Core.Analysis;
 using AuditSvc.Core.Audits;
 using AuditSvc.Core.Gate;
@@ -10,7 +11,7 @@ namespace AuditSvc.Core.Tests.Gate;
 /// set size and label link. Invented data, fixed seeds. The bound per cell is 0.05 + 3 standard errors of a rate at
 /// 0.05 over the cell's runs; the pooled rate over all cells is held to 0.05 + 3 pooled standard errors.
 /// </summary>
-public class NullSimulationTests
+public class NullSimulationTests(ITestOutputHelper output)
 {
     private const int Runs = 300;
 
@@ -68,6 +69,7 @@ public class NullSimulationTests
         // (the gap leaves the family); the rate is held on the runs that were.
         Assert.True(computed >= 50, $"only {computed} of {Runs} runs had a usable stratum");
         double bound = 0.05 + 3 * Math.Sqrt(0.05 * 0.95 / computed);
+        output.WriteLine($"null gap K={k} N={n} linked={linked}: measured {computed}/{Runs}, rejected {rejected}, blocked {blocked}, bound {bound:0.###}");
         Assert.True(rejected / (double)computed <= bound, $"K={k} N={n} linked={linked}: rejected {rejected}/{computed}, bound {bound:0.###}");
         Assert.True(blocked / (double)computed <= bound, $"K={k} N={n} linked={linked}: blocked {blocked}/{computed}");
     }
@@ -99,6 +101,7 @@ public class NullSimulationTests
             if (Verdicts.Triggers(m with { QValue = m.PValue }, policy.LeakageThreshold, policy)) blocked++;
         }
         double bound = 0.05 + 3 * Math.Sqrt(0.05 * 0.95 / runs);
+        output.WriteLine($"null intervention {pairs} pairs: rejected {rejected}/{runs}, blocked {blocked}, bound {bound:0.###}");
         Assert.True(rejected / (double)runs <= bound, $"{pairs} pairs: rejected {rejected}/{runs}");
         Assert.True(blocked / (double)runs <= bound, $"{pairs} pairs: blocked {blocked}/{runs}");
     }
@@ -146,6 +149,7 @@ public class NullSimulationTests
             if (adjusted.Any(list => list.Any(m => Verdicts.Triggers(m, policy.LeakageThreshold, policy)))) blockedAudits++;
         }
         double bound = 0.05 + 3 * Math.Sqrt(0.05 * 0.95 / audits);
+        output.WriteLine($"null audits with six attributes: blocked {blockedAudits}/{audits}, bound {bound:0.###}");
         Assert.True(blockedAudits / (double)audits <= bound, $"blocked {blockedAudits}/{audits} null audits");
     }
 }
