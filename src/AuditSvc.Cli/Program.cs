@@ -6,6 +6,7 @@ root.Subcommands.Add(AuditCommand.Create());
 root.Subcommands.Add(InspectCommand.Create());
 root.Subcommands.Add(DemoCommand.Create());
 root.Subcommands.Add(DemoSetCommand.Create());
+root.Subcommands.Add(ScenarioSetCommand.Create());
 root.Subcommands.Add(CompareCommand.Create());
 root.Subcommands.Add(ServeCommand.Create());
 root.Subcommands.Add(WorkerCommand.Create());
