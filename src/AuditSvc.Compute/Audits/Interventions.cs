@@ -92,6 +92,9 @@ public static class Interventions
                 if (measures.Count(m => m is not null) < 2) note = $"{cue}: fewer than {MinPairs} eligible pairs for " + (measures.All(m => m is null) ? "transplant and occlusion" : "one of the interventions");
                 break;
             }
+            case CueRegions.Global when region.Share < CueRegions.MinImageWideShare:
+                note = string.Create(CultureInfo.InvariantCulture, $"{cue}: the region covers {region.Share:P0} of the image: too large for a patch, too small to be a colour cast; no intervention, only the observational measure");
+                break;
             default:
             {
                 note = string.Create(CultureInfo.InvariantCulture, $"{cue}: the region covers {region.Share:P0} of the image, so it is not a local cue: no patch was moved; its colour statistics were transferred instead");

@@ -35,6 +35,13 @@ public static class CueRegions
     /// <summary>A region over this share of the image is not local: no patch is moved (DESIGN: about a quarter).</summary>
     public const double MaxLocalShare = 0.25;
 
+    /// <summary>
+    /// A global region must cover at least this share of the image to count as image-wide (a colour cast, a belt or
+    /// backdrop colour) and get the colour transfer; a frame or a backdrop band between the local and image-wide shares
+    /// changes more than colour statistics, so moving only the statistics would not be the cue: it gets no intervention.
+    /// </summary>
+    public const double MinImageWideShare = 0.6;
+
     /// <summary>Smallest standardised difference that counts (Cohen's "medium" effect, 0.5; common practice).</summary>
     public const double MinEffect = 0.5;
 

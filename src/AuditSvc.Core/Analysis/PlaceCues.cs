@@ -67,6 +67,10 @@ public static class PlaceCues
             act.Scores.ReadUnits(u, 1, scores);
             if (!Live(top, scores)) continue;
             double cy = Math.Clamp(layer.Field.Y.Center(my), 0, h - 1), cx = Math.Clamp(layer.Field.X.Center(mx), 0, w - 1);
+            // The central ninth is where the object sits in most sets: units that agree there see the object, and an
+            // object feature is not a shortcut. Overlays, tags and frames sit off centre. (Known limit: a stamp burned
+            // into the centre is not inferred; a column for it still is tested.)
+            if (Math.Abs(cy - (h - 1) / 2.0) < h / 6.0 && Math.Abs(cx - (w - 1) / 2.0) < w / 6.0) continue;
             candidates.Add((u, slice, channel, top, cy, cx, share, covered));
         }
         // Greedy clustering by place, most concentrated units first.
