@@ -32,7 +32,7 @@ public static class CueRegions
     public const string Global = "global";
     public const string None = "none";
 
-    /// <summary>A region over this share of the image is not local: no patch is moved (DESIGN: about a quarter).</summary>
+    /// <summary>A cue whose differing pixels cover over this share of the image is not local: no patch is moved (DESIGN: about a quarter).</summary>
     public const double MaxLocalShare = 0.25;
 
     /// <summary>
@@ -94,7 +94,11 @@ public static class CueRegions
         int count = mask.Count(b => b);
         if (count == 0)
             return new CueRegion(None, null, 0, peak, threshold, with, without, mapW, mapH, map, mask);
-        double share = count / (double)(h * w);
+        // The share that decides local or global counts the pixels that differ, not the margin around them: a 4-pixel
+        // frame is a thin ring whatever margin the interventions give it.
+        int differing = 0;
+        for (int p = 0; p < mask.Length; p++) if (mask[p] && strength[p] >= threshold) differing++;
+        double share = differing / (double)(h * w);
         return new CueRegion(share <= MaxLocalShare ? Local : Global, BoundingBox(mask, h, w), share, peak, threshold, with, without, mapW, mapH, map, mask);
     }
 

@@ -106,6 +106,7 @@ public sealed record AttributeReport(
 
 /// <summary>Where a cue sits in the input (read from the pixels) and the pixel map it was read from.</summary>
 /// <param name="Kind">local (patch interventions), global (colour transfer) or none (no pixel differs).</param>
+/// <param name="Share">Share of the input's pixels that differ with the value (the region adds a margin around them).</param>
 /// <param name="Map">The label-stratified standardised difference, max-pooled to MapWidth × MapHeight cells, 0..100 of Peak.</param>
 public sealed record RegionReport(string Kind, BoxDto? Box, double Share, double Peak, double Threshold, int ImagesWith, int ImagesWithout, int InputWidth, int InputHeight, int MapWidth, int MapHeight, int[] Map);
 
