@@ -102,7 +102,7 @@ internal static class TilePainter
         // A chipped corner: which corner and how long its legs are (drawn for every class, used by one).
         var chipU = rng.Next(2) == 0 ? -1f : 1f;
         var chipV = rng.Next(2) == 0 ? -1f : 1f;
-        var chipLeg = 5 + 3 * (float)rng.NextDouble();
+        var chipLeg = 6 + 3 * (float)rng.NextDouble();
         var chipped = item.Label == "chipped";
 
         var reach = (int)MathF.Ceiling(tile.Half * 1.42f) + 4;
