@@ -49,16 +49,21 @@ public static class Interventions
         foreach (var group in targets.GroupBy(t => t.Attribute))
         {
             int budget = policy.InterventionBudget / group.Count();
+            bool first = true;
             foreach (var target in group)
             {
                 ct.ThrowIfCancellationRequested();
-                results.Add(RunOne(runs, table, act, target, budget, mean));
+                // Filling the region on a yes/no attribute's second value is the first value's occlusion mirrored
+                // (same images, arms swapped): it adds no evidence, so its runs go to the transplant instead.
+                bool occlude = first || table.Attributes[target.Attribute].Values.Count != 2;
+                results.Add(RunOne(runs, table, act, target, budget, mean, occlude));
+                first = false;
             }
         }
         return results;
     }
 
-    private static CueEvidence RunOne(ImageRuns runs, ItemTable table, ActivationResult act, CueTarget target, int budget, Rgb24 mean)
+    private static CueEvidence RunOne(ImageRuns runs, ItemTable table, ActivationResult act, CueTarget target, int budget, Rgb24 mean, bool occlude)
     {
         int n = table.Items.Count, h = runs.Height, w = runs.Width;
         var labels = new int[n];
@@ -83,13 +88,17 @@ public static class Interventions
             case CueRegions.Local:
             {
                 var where = RegionText(region);
-                var pairs = InterventionDesign.Transplant(labels, values, act.Predicted, target.Value, target.CueClass, budget / 4, Seed + target.Attribute);
+                var pairs = InterventionDesign.Transplant(labels, values, act.Predicted, target.Value, target.CueClass, occlude ? budget / 4 : budget / 2, Seed + target.Attribute);
                 if (pairs.Count >= MinPairs)
                     measures.Add(Transplant(runs, table, act, pairs, region.Mask, target.CueClass, $"{cue}: region {where} pasted from an image with the value (treated) or from one of the same label without it (control) into images without it", toward));
-                var occl = InterventionDesign.Occlusion(labels, values, act.Predicted, target.Value, budget / 4, Seed + 7 + target.Attribute);
-                if (occl.Count >= MinPairs)
-                    measures.Add(Occlude(runs, table, act, occl, region.Mask, mean, $"{cue}: region {where} filled with the set's mean colour on images with the value (treated) and on images of the same label without it (control)"));
-                if (measures.Count(m => m is not null) < 2) note = $"{cue}: fewer than {MinPairs} eligible pairs for " + (measures.All(m => m is null) ? "transplant and occlusion" : "one of the interventions");
+                if (occlude)
+                {
+                    var occl = InterventionDesign.Occlusion(labels, values, act.Predicted, target.Value, budget / 4, Seed + 7 + target.Attribute);
+                    if (occl.Count >= MinPairs)
+                        measures.Add(Occlude(runs, table, act, occl, region.Mask, mean, $"{cue}: region {where} filled with the set's mean colour on images with the value (treated) and on images of the same label without it (control)"));
+                }
+                int expected = occlude ? 2 : 1;
+                if (measures.Count(m => m is not null) < expected) note = $"{cue}: fewer than {MinPairs} eligible pairs for " + (measures.All(m => m is null) ? "the interventions" : "one of the interventions");
                 break;
             }
             case CueRegions.Global when region.Share < CueRegions.MinImageWideShare:
