@@ -42,7 +42,7 @@ def summarise(audit, scenario, bare):
             "measures": [{k: m[k] for k in ("name", "value", "n", "low", "high", "p_value")} for m in cue["measures"]],
         },
         "other_blocks": [a["name"] for a in attributes if a["verdict"] == "block" and a is not cue],
-        "reasons": [r["message"] for r in audit["reasons"]],
+        "reasons": [{k: r[k] for k in ("kind", "attribute", "measure", "message")} for r in audit["reasons"]],
     }
 
 
@@ -59,8 +59,11 @@ def run_audit(model_path, manifest, out):
 
 
 def engine_commit():
-    r = subprocess.run(["git", "-C", REPO, "log", "-1", "--format=%h (%cs)"], capture_output=True, text=True)
-    return r.stdout.strip()
+    """The last commit that touched the engine (Core, Compute), and the checkout it ran from."""
+    def git(*args):
+        return subprocess.run(["git", "-C", REPO, *args], capture_output=True, text=True).stdout.strip()
+    engine = git("log", "-1", "--format=%h (%cs)", "--", "src/AuditSvc.Core", "src/AuditSvc.Compute")
+    return f"{engine}, run from {git('rev-parse', '--abbrev-ref', 'HEAD')} at {git('log', '-1', '--format=%h')}"
 
 
 def main():
@@ -73,7 +76,15 @@ def main():
     ap.add_argument("--work", default="/tmp/auditsvc-scenario-validate", help="folder for sets and audits")
     ap.add_argument("--out", default=os.path.join(REPO, "docs", "validation.md"))
     ap.add_argument("--title", default="", help="what this run is, e.g. 'baseline before the issue-8 engine changes'")
+    ap.add_argument("--report-only", action="store_true", help="rewrite the report from WORK/results.json without auditing")
     args = ap.parse_args()
+    results = os.path.join(args.work, "results.json")
+    if args.report_only:
+        with open(results) as f:
+            saved = json.load(f)
+        write_report(args.out, saved["rows"], title=args.title or saved["title"], **saved["meta"])
+        print(f"wrote {args.out}")
+        return
 
     with open(os.path.join(HERE, "reliance.json")) as f:
         reliance = json.load(f)
@@ -110,11 +121,11 @@ def main():
                 print(f"{model:36s} A={a:5s} {'bare   ' if bare else 'columns'} reliance {true['reliance']:+.3f} "
                       f"-> {row.get('verdict', error)} ({seconds:.1f} s)", flush=True)
 
+    meta = {"engine": engine_commit(), "count": count, "seconds": time.time() - started, "subset": args.subset}
     os.makedirs(args.work, exist_ok=True)
-    with open(os.path.join(args.work, "results.json"), "w") as f:
-        json.dump(rows, f, indent=2)
-    write_report(args.out, rows, title=args.title, engine=engine_commit(), count=count, seconds=time.time() - started,
-                 subset=args.subset)
+    with open(results, "w") as f:
+        json.dump({"title": args.title, "meta": meta, "rows": rows}, f, indent=2)
+    write_report(args.out, rows, title=args.title, **meta)
     print(f"wrote {args.out}")
 
 

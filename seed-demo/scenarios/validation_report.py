@@ -41,6 +41,8 @@ def counts(rows):
         "relying": len(relying),
         "misses": sum(outcome(r) == "miss" for r in relying),
         "between": len(rows) - len(ignoring) - len(relying),
+        "false_by_column": sum(outcome(r) == "false block" and not r["bare"]
+                               and (r.get("cue_attribute") or {}).get("verdict") == "block" for r in ignoring),
         "innocent_blocks": sum(any(a in ("shift", "kiln") for a in r.get("other_blocks", [])) for r in rows),
         "errors": sum(bool(r.get("error")) for r in rows),
     }
@@ -55,6 +57,7 @@ def summary_table(rows, split):
     lines = ["| | " + " | ".join(k[1] for k in keys) + " |", "|---|" + "---|" * len(keys)]
     for label, key in [("audits", "audits"), ("of models ignoring the cue (reliance < 0.1)", "ignoring"),
                        ("**false blocks** (block while reliance < 0.1)", "false_blocks"),
+                       ("… of which the cue's own column blocked", "false_by_column"),
                        ("of models relying on it (reliance ≥ 0.3)", "relying"), ("**misses** (pass while reliance ≥ 0.3)", "misses"),
                        ("of models in between (0.1 ≤ reliance < 0.3)", "between"),
                        ("blocks on an innocent column (shift, kiln)", "innocent_blocks"), ("audits that failed", "errors")]:
@@ -62,7 +65,23 @@ def summary_table(rows, split):
     return lines
 
 
+def reason_table(rows):
+    tally = {}
+    for r in rows:
+        if r.get("error") or r["verdict"] != "block":
+            continue
+        for reason in r["reasons"]:
+            attribute = reason["attribute"] or "–"
+            kind = "inferred place" if attribute.startswith("place:") else "cue column" if attribute == (r.get("cue_attribute") or {}).get("name") else attribute
+            key = (outcome(r), "bare" if r["bare"] else "columns", kind, reason["measure"] or reason["kind"])
+            tally[key] = tally.get(key, 0) + 1
+    lines = ["| outcome | set | attribute | measure | reasons |", "|---|---|---|---|---|"]
+    lines += [f"| {k[0]} | {k[1]} | {k[2]} | {k[3]} | {n} |" for k, n in sorted(tally.items())]
+    return lines
+
+
 def write_report(path, rows, title, engine, count, seconds, subset):
+    """One markdown page: counts by set and agreement, what blocked, and every audit's row."""
     agreements = sorted({r["agreement"] for r in rows})
     out = [f"# Validation on invented scenarios{': ' + title if title else ''}", "",
            "Everything here is **invented**: glazed ceramic tiles on a kiln conveyor, graded by surface flaw, drawn by our",
@@ -81,6 +100,10 @@ def write_report(path, rows, title, engine, count, seconds, subset):
     out += summary_table(rows, lambda r: (r["bare"], "bare" if r["bare"] else "with columns"))
     out += ["", "By set and agreement:", ""]
     out += summary_table(rows, lambda r: ((r["bare"], r["agreement"]), f"{'bare' if r['bare'] else 'columns'} A={r['agreement']:g}"))
+    out += ["", "By set and cue kind:", ""]
+    out += summary_table(rows, lambda r: ((r["bare"], r["kind"]), f"{'bare' if r['bare'] else 'columns'} {r['kind']}"))
+    out += ["", "What made the verdict block, per audit outcome (each blocking reason's attribute kind and measure):", ""]
+    out += reason_table(rows)
     out += ["", "## Every audit", ""]
     for scenario in dict.fromkeys(r["scenario"] for r in rows):
         rs = [r for r in rows if r["scenario"] == scenario]
