@@ -3,7 +3,7 @@
 
 For each model (seed-demo/scenarios/models/*.onnx, true reliance from reliance.json) and each agreement A, it makes
 an audit set with `scenario-set` (the cue linked to its class at A), once with attribute columns and once bare
-(image and label only), runs `audit` on the current engine and reads audit.json. It writes docs/validation.md:
+(image and label only), runs `audit` on the current engine and reads audit.json. It writes docs/validation-scenarios.md:
 one row per (model, agreement, columns/bare) and the counts of
   false blocks: verdict block while true reliance < 0.1;
   misses:       true reliance >= 0.3 and verdict pass.
@@ -74,7 +74,7 @@ def main():
     ap.add_argument("--subset", action="store_true",
                     help=f"a CI-sized run: {', '.join(SUBSET_MODELS)} at A = 0.95 with 300 images (unless given)")
     ap.add_argument("--work", default="/tmp/auditsvc-scenario-validate", help="folder for sets and audits")
-    ap.add_argument("--out", default=os.path.join(REPO, "docs", "validation.md"))
+    ap.add_argument("--out", default=os.path.join(REPO, "docs", "validation-scenarios.md"))
     ap.add_argument("--title", default="", help="what this run is, e.g. 'baseline before the issue-8 engine changes'")
     ap.add_argument("--report-only", action="store_true", help="rewrite the report from WORK/results.json without auditing")
     args = ap.parse_args()
