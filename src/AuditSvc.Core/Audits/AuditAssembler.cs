@@ -93,7 +93,8 @@ public static class AuditAssembler
         new(c.Name, c.Attribute >= 0 ? c.Name : null, c.Layer.Layer.Name, c.Channel, c.Region, Round(c.PlaceShare), c.LabelsCovered,
             c.Units.Take(20).Select(u => { var (l, ch) = x.Act.Locate(u); return $"{l.Layer.Name}#{ch}"; }).ToList(),
             Round(c.Split), Round(c.Separability), c.Carriers,
-            c.Top.Take(AuditAnalysis.ShownExemplars).Select(p => ExemplarOf(x.Table, x.Plan, c.Layer.Layer, p, -1)).ToList(), c.ExplainedBy);
+            c.Top.Take(AuditAnalysis.ShownExemplars).Select(p => ExemplarOf(x.Table, x.Plan, c.Layer.Layer, p, -1)).ToList(), c.ExplainedBy)
+        { AgreeingUnits = c.Units.Count };
 
     public static Exemplar ExemplarOf(ItemTable t, ModelPlan plan, LayerInfo layer, Peak p, int attribute)
     {

@@ -154,7 +154,11 @@ public sealed record CueGroup(string Attribute, string Value, int Units, IReadOn
 /// <param name="Split">Score of the unit above which an image carries the pattern (Otsu's split).</param>
 /// <param name="Separability">Otsu's between-class share of the variance at that split, 0..1.</param>
 public sealed record PlaceCandidate(string Name, string? Attribute, string Layer, int Unit, string Region, double PlaceShare, int LabelsCovered,
-    IReadOnlyList<string> UnitRefs, double Split, double Separability, int Carriers, IReadOnlyList<Exemplar> Exemplars, string? ExplainedBy);
+    IReadOnlyList<string> UnitRefs, double Split, double Separability, int Carriers, IReadOnlyList<Exemplar> Exemplars, string? ExplainedBy)
+{
+    /// <summary>How many live units agree on the place (<see cref="UnitRefs"/> lists at most 20 of them).</summary>
+    public int AgreeingUnits { get; init; }
+}
 
 /// <summary>Accuracy in one (label, value) group; Relation is aligned, conflicting or neutral (see GroupAccuracyAnalysis).</summary>
 public sealed record GroupAccuracy(string Attribute, string Label, string Value, int N, int Correct, double Accuracy, string Relation);

@@ -73,7 +73,7 @@ public static partial class HtmlReport
               .Append(E(c.Layer)).Append(" / unit ").Append(c.Unit).Append("</span>");
             if (c.ExplainedBy is not null) sb.Append(" <span class=\"tag\">explained by ").Append(E(c.ExplainedBy)).Append("</span>");
             else if (c.Attribute is null) sb.Append(" <span class=\"tag\">too few images on one side to measure</span>");
-            sb.Append("</h3>\n<div class=\"stats\">").Append(Stat("agreeing units", Int(c.UnitRefs.Count))).Append(Stat("place share", Pct(c.PlaceShare)))
+            sb.Append("</h3>\n<div class=\"stats\">").Append(Stat("agreeing units", Int(Math.Max(c.AgreeingUnits, c.UnitRefs.Count)))).Append(Stat("place share", Pct(c.PlaceShare)))
               .Append(Stat("labels", Int(c.LabelsCovered))).Append(Stat("split", Num(c.Split))).Append(Stat("separability", Num(c.Separability)))
               .Append(Stat("images carrying it", Int(c.Carriers)))
               .Append("</div>\n<p class=\"mono small\">").Append(E(string.Join(", ", c.UnitRefs))).Append("</p>\n<div class=\"finding-body\">");

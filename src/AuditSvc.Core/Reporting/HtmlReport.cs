@@ -86,7 +86,7 @@ public static partial class HtmlReport
     {
         sb.Append("<nav><a href=\"#reasons\">Reasons</a><a href=\"#coverage\">Scope and cautions</a><a href=\"#attributes\">Attributes</a>")
           .Append("<a href=\"#cues\">Cues</a><a href=\"#findings\">Findings (").Append(Int(r.Findings.Count)).Append(")</a>")
-          .Append("<a href=\"#candidates\">Fixed-place units</a><a href=\"#groups\">Group accuracy</a><a href=\"#problems\">Problems</a>")
+          .Append("<a href=\"#candidates\">Fixed-place patterns</a><a href=\"#groups\">Group accuracy</a><a href=\"#problems\">Problems</a>")
           .Append("<a href=\"#policy\">Policy</a><a href=\"#pass\">Pass</a></nav>\n");
     }
 

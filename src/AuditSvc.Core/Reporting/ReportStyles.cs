@@ -46,11 +46,13 @@ table.inner td:first-child { white-space: nowrap; }
 table.inner tr.detail td { white-space: normal; overflow-wrap: anywhere; border-bottom: 1px solid var(--line); padding-bottom: 4px; }
 table.attrs { width: 100%; table-layout: fixed; }
 table.attrs > thead > tr > th:nth-child(1) { width: 13%; }
-table.attrs > thead > tr > th:nth-child(2), table.attrs > thead > tr > th:nth-child(6) { width: 6%; }
-table.attrs > thead > tr > th:nth-child(3), table.attrs > thead > tr > th:nth-child(4) { width: 7%; }
-table.attrs > thead > tr > th:nth-child(5) { width: 13%; }
+table.attrs > thead > tr > th { white-space: normal; }
+table.attrs > thead > tr > th:nth-child(2), table.attrs > thead > tr > th:nth-child(6) { width: 7%; }
+table.attrs > thead > tr > th:nth-child(3), table.attrs > thead > tr > th:nth-child(4) { width: 8%; }
+table.attrs > thead > tr > th:nth-child(5) { width: 12%; }
 table.attrs > thead > tr > th:nth-child(7) { width: 7%; }
-table.attrs > thead > tr > th:nth-child(8) { width: 41%; }
+table.attrs > thead > tr > th:nth-child(8) { width: 38%; }
+table.attrs table.inner td:first-child { white-space: normal; }
 table.attrs table.inner { width: 100%; }
 .regions { display: flex; flex-wrap: wrap; gap: 12px; margin-top: 8px; }
 figure.region { margin: 0; max-width: 260px; font-size: 12px; }
