@@ -61,7 +61,7 @@ public static class AccuracyGap
                 used += n1[k] + n2[k];
             }
         }
-        var rd = StratifiedRiskDifference.Compute(strata);
+        var rd = StratifiedRiskDifference.Compute(strata, sampleSizeFactor: true);
         if (rd is null) return null;
         var inv = CultureInfo.InvariantCulture;
         string source = fromModel switch

@@ -34,7 +34,7 @@ public static class StratifiedRiskDifference
     // Bisection stops when the bracket is this narrow; T is then within rounding of z.
     private const double Resolution = 1e-15;
 
-    private readonly record struct Stratum(double X1, double N1, double X2, double N2, double W)
+    private readonly record struct Stratum(double X1, double N1, double X2, double N2, double W, double F = 1)
     {
         public double P1 => X1 / N1;
         public double P2 => X2 / N2;
@@ -44,7 +44,12 @@ public static class StratifiedRiskDifference
     /// Estimates, tests and brackets the common difference group 1 − group 2. Strata with an empty
     /// group are skipped; null when none is left.
     /// </summary>
-    public static RiskDifferenceResult? Compute(IReadOnlyList<BinomialPair> strata, double confidence = 0.95)
+    /// <param name="sampleSizeFactor">
+    /// Multiply each stratum's variance by n/(n − 1), n = n1 + n2, as Miettinen &amp; Nurminen's own statistic does: with
+    /// many small strata the plain statistic rejects a little too often (measured in the null simulations), and the
+    /// factor brings it back; with one large stratum it changes nothing that matters.
+    /// </param>
+    public static RiskDifferenceResult? Compute(IReadOnlyList<BinomialPair> strata, double confidence = 0.95, bool sampleSizeFactor = false)
     {
         ArgumentNullException.ThrowIfNull(strata);
         if (!(confidence > 0 && confidence < 1)) throw new ArgumentOutOfRangeException(nameof(confidence), confidence, "Confidence must lie in (0, 1).");
@@ -58,7 +63,8 @@ public static class StratifiedRiskDifference
                 throw new ArgumentException($"Stratum {k}: counts must satisfy 0 <= X <= N (got {s}).", nameof(strata));
             if (s.N1 == 0 || s.N2 == 0) continue;
             double n1 = s.N1, n2 = s.N2;
-            var stratum = new Stratum(s.X1, n1, s.X2, n2, n1 * n2 / (n1 + n2));
+            double f = sampleSizeFactor && n1 + n2 > 1 ? (n1 + n2) / (n1 + n2 - 1) : 1;
+            var stratum = new Stratum(s.X1, n1, s.X2, n2, n1 * n2 / (n1 + n2), f);
             used.Add(stratum);
             sumW += stratum.W;
             sumWd += stratum.W * (stratum.P1 - stratum.P2);
@@ -122,7 +128,7 @@ public static class StratifiedRiskDifference
         {
             numerator += s.W * (s.P1 - s.P2 - delta);
             var (q1, q2) = RestrictedProportions(s, delta);
-            variance += s.W * s.W * (q1 * (1 - q1) / s.N1 + q2 * (1 - q2) / s.N2);
+            variance += s.W * s.W * s.F * (q1 * (1 - q1) / s.N1 + q2 * (1 - q2) / s.N2);
         }
         if (numerator == 0) return 0.0;
         if (variance <= 0) return numerator > 0 ? double.PositiveInfinity : double.NegativeInfinity;

@@ -45,6 +45,27 @@ public class StratifiedRiskDifferenceTests(ITestOutputHelper output)
     }
 
     [Fact]
+    public void Compute_WithSampleSizeFactor_MatchesMiettinenNurminenAsStatsmodelsComputesIt()
+    {
+        // Miettinen & Nurminen (1985) multiply the variance by n/(n − 1). The test statistic, recomputed with
+        // statsmodels 0.13.5 (Debian's python3-statsmodels, test_proportions_2indep, method "score",
+        // correction=True): tea table 3/4 vs 1/4 gives z = 1.3228757 (= sqrt(2 · 7/8): Pearson's χ² times
+        // (n − 1)/n); Perondi 7/34 vs 1/34 gives z = 2.2416512, p = 0.0249839.
+        var tea = StratifiedRiskDifference.Compute([new BinomialPair(3, 4, 1, 4)], sampleSizeFactor: true)!;
+        Close.To(1.3228757, tea.Z, 0, 5e-7);
+        var perondi = StratifiedRiskDifference.Compute([new BinomialPair(7, 34, 1, 34)], sampleSizeFactor: true)!;
+        Close.To(2.2416512, perondi.Z, 0, 5e-7);
+        Close.To(0.0249839, perondi.PValue, 0, 5e-7);
+        // The interval inverts that statistic: recomputed with SciPy 1.10.1 (restricted likelihood maximised
+        // numerically, roots by brentq): 0.0270416 to 0.3452912. statsmodels' confint_proportions_2indep prints
+        // 0.0273246 to 0.3434287: its score statistic away from δ = 0 is not the restricted-likelihood one (at
+        // δ = 0.0273246 SciPy's recomputation gives 1.9569, statsmodels' own test 1.9600), so the interval is held
+        // to the SciPy recomputation.
+        Close.To(0.0270416, perondi.Low, 0, 5e-7);
+        Close.To(0.3452912, perondi.High, 0, 5e-7);
+    }
+
+    [Fact]
     public void Compute_PerondiSingleStratum_MatchesMeeInterval()
     {
         // Perondi et al. (2004), 7/34 vs 1/34: Mee asymptotic score interval 0.0284 to 0.3439
