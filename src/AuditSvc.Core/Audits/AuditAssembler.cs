@@ -60,14 +60,18 @@ public static class AuditAssembler
             var link = x.Analysis.Links[li];
             var name = t.Attributes[link.Attribute].Name;
             var measures = adjusted[li];
-            var (verdict, attrVerdict, leakage, why) = Verdicts.Decide(new AttributeEvidence(name, link.Confounded, measures), x.Policy);
+            // An inferred pattern that nearly determines the label is more likely the object than a shortcut: the
+            // confounded rule (block until counter-examples exist) is for columns someone named, not for guesses.
+            bool isInferred = inferred.ContainsKey(link.Attribute);
+            var (verdict, attrVerdict, leakage, why) = Verdicts.Decide(new AttributeEvidence(name, link.Confounded && !isInferred, measures), x.Policy);
             block |= verdict == Verdicts.Block;
             reasons.AddRange(why);
             int tests = x.Analysis.Scan.Tests.Count(s => s.Attribute == link.Attribute);
             int findings = x.Analysis.Findings.Count(f => f.Attribute == link.Attribute);
-            string? note = link.Confounded ? "confounded with the label: collect counter-examples"
+            string? note = link.Confounded && !isInferred ? "confounded with the label: collect counter-examples"
                 : inferred.TryGetValue(link.Attribute, out var place)
                     ? string.Create(CultureInfo.InvariantCulture, $"no attribute column names this cue: {place.Units.Count} live units peak at the {place.Region} across {place.LabelsCovered} labels; an image carries it when {place.Layer.Layer.Name}#{place.Channel} scores above {place.Split:0.###} ({place.Carriers} images)")
+                        + (link.Confounded ? "; it nearly determines the label, so it may be part of the object: listed, not blocking on that alone" : "")
                 : findings > 0 && verdict == Verdicts.Pass ? "units notice this cue, but the model's decisions do not measurably follow it"
                 : null;
             var cues = x.Evidence.Where(e => e.Attribute == link.Attribute).Select(e => CueReportOf(t, x.Plan, e)).ToList();
