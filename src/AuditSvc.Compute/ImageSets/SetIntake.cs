@@ -153,11 +153,20 @@ public static class SetIntake
         var labelIndex = labels.Select((l, i) => (l, i)).ToDictionary(t => t.l, t => t.i, StringComparer.Ordinal);
         var seen = new HashSet<string>(StringComparer.Ordinal);
         var candidates = new List<(RawRow Row, string Full, int Label)>();
+        var root = Path.GetFullPath(dir).TrimEnd(Path.DirectorySeparatorChar) + Path.DirectorySeparatorChar;
         foreach (var r in rows)
         {
             if (string.IsNullOrWhiteSpace(r.Image)) { problems.Add(new(r.Row, "", "empty 'image' cell")); continue; }
             var rel = r.Image.Replace('\\', '/');
             var full = Path.GetFullPath(Path.Combine(dir, rel));
+            // Rows name files inside the set's folder only: an absolute path or ".." must not reach another set's
+            // images (or anything else on the machine). Refused before the file is touched, so the answer says
+            // nothing about whether such a file exists.
+            if (Path.IsPathRooted(rel) || !full.StartsWith(root, StringComparison.Ordinal))
+            {
+                problems.Add(new(r.Row, rel, "path leaves the image set's folder (absolute paths and '..' are not allowed)"));
+                continue;
+            }
             if (!seen.Add(full)) { problems.Add(new(r.Row, rel, "duplicate path (already listed on an earlier row)")); continue; }
             if (string.IsNullOrWhiteSpace(r.Label)) { problems.Add(new(r.Row, rel, "empty 'label' cell")); continue; }
             if (!labelIndex.TryGetValue(r.Label, out int li))
@@ -169,7 +178,7 @@ public static class SetIntake
         }
         // File checks (exists, decodable header) and hashes in parallel; order is kept.
         var checkedRows = new (string? Hash, string? Problem)[candidates.Count];
-        Parallel.For(0, candidates.Count, i => checkedRows[i] = CheckFile(candidates[i].Full));
+        Parallel.For(0, candidates.Count, i => checkedRows[i] = CheckFile(candidates[i].Full, root));
         var attrCells = new List<string?[]>();
         var kept = new List<(RawRow Row, string Full, int Label, string Hash)>();
         for (int i = 0; i < candidates.Count; i++)
@@ -200,17 +209,42 @@ public static class SetIntake
         throw new AuditInputException("label", $"labels are names ({string.Join(", ", distinct.Take(5))}…) but the model's class names are unknown: give --labels in output order or class_names in the model's recipe file");
     }
 
-    private static (string? Hash, string? Problem) CheckFile(string full)
+    /// <summary>Largest image file intake reads (a bound on what one row can make the service read).</summary>
+    public const long MaxFileBytes = 256L << 20;
+
+    private static (string? Hash, string? Problem) CheckFile(string full, string root)
     {
-        if (!File.Exists(full)) return (null, "file not found");
+        FileInfo info;
         try
         {
-            var bytes = File.ReadAllBytes(full);
-            if (bytes.Length == 0) return (null, "empty file");
-            var info = Image.Identify(bytes);
-            if (info is null) return (null, "not a decodable image (unknown format)");
-            if (info.Width < 1 || info.Height < 1) return (null, "image has no pixels");
-            return (Convert.ToHexStringLower(SHA256.HashData(bytes)), null);
+            info = new FileInfo(full);
+            if (!info.Exists) return (null, "file not found");
+            // A link may point anywhere: its final target must stay in the folder too.
+            if (info.LinkTarget is not null)
+            {
+                var target = info.ResolveLinkTarget(returnFinalTarget: true);
+                if (target is null || !Path.GetFullPath(target.FullName).StartsWith(root, StringComparison.Ordinal))
+                    return (null, "path leaves the image set's folder (a link to outside it)");
+                info = new FileInfo(target.FullName);
+            }
+            // FIFOs, devices and sockets report no length: refusing length 0 before opening keeps a FIFO from
+            // hanging intake and /dev/zero from filling memory.
+            if (info.Length == 0) return (null, "empty file or not a regular file");
+            if (info.Length > MaxFileBytes) return (null, $"file is larger than {MaxFileBytes >> 20} MiB");
+        }
+        catch (Exception e) when (e is IOException or UnauthorizedAccessException)
+        {
+            return (null, $"cannot read the file ({e.GetType().Name})");
+        }
+        try
+        {
+            // Streamed: the header is identified, then the file is hashed from the same stream, never read whole.
+            using var stream = new FileStream(info.FullName, FileMode.Open, FileAccess.Read, FileShare.Read, 64 * 1024);
+            var image = Image.Identify(stream);
+            if (image is null) return (null, "not a decodable image (unknown format)");
+            if (image.Width < 1 || image.Height < 1) return (null, "image has no pixels");
+            stream.Position = 0;
+            return (Convert.ToHexStringLower(SHA256.HashData(stream)), null);
         }
         catch (Exception e) when (e is UnknownImageFormatException or InvalidImageContentException or NotSupportedException or IOException or UnauthorizedAccessException)
         {
