@@ -17,12 +17,12 @@ internal static class PageHtml
 
     // Added to the report's sheet, in its colours; no external fonts, images or scripts.
     private const string PageCss = """
-.topbar { display: flex; align-items: center; gap: 16px; padding: 8px 24px; background: #24292f; color: #fff; font-size: 13px; }
+.topbar { display: flex; align-items: center; gap: 16px; padding: 8px 24px; background: #3a2f4a; color: #fff; font-size: 13px; }
 .topbar a { color: #fff; text-decoration: none; }
 .topbar .brand { font-weight: 800; letter-spacing: .04em; }
-.topbar .who { color: #c9d1d9; }
+.topbar .who { color: #e0d6ea; }
 .topbar form { margin: 0 0 0 auto; }
-.topbar button { background: transparent; color: #fff; border: 1px solid #8b949e; }
+.topbar button { background: transparent; color: #fff; border: 1px solid #a897bd; }
 .page { max-width: 1200px; margin: 0 auto; padding: 8px 24px 24px; }
 .page h1 { font-size: 22px; margin: 16px 0 4px; }
 button { font: inherit; padding: 4px 12px; border-radius: 4px; border: 1px solid var(--accent); background: var(--accent); color: #fff; cursor: pointer; }

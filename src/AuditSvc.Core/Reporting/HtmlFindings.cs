@@ -109,8 +109,8 @@ public static partial class HtmlReport
         {
             int n = i < grid.Length ? grid[i] : 0;
             double a = max == 0 ? 0 : (double)n / max;
-            sb.Append("<span style=\"background:rgba(37,99,235,").Append((0.06 + 0.84 * a).ToString("0.00", CultureInfo.InvariantCulture))
-              .Append(");color:").Append(a > 0.5 ? "#fff" : "#1f2328").Append("\">").Append(n).Append("</span>");
+            sb.Append("<span style=\"background:rgba(47,93,98,").Append((0.06 + 0.84 * a).ToString("0.00", CultureInfo.InvariantCulture))
+              .Append(");color:").Append(a > 0.5 ? "#fff" : "#2b2621").Append("\">").Append(n).Append("</span>");
         }
         sb.Append("</div>");
     }

@@ -1,15 +1,15 @@
 namespace AuditSvc.Core.Reporting;
 
-/// <summary>The report's inline style sheet: neutral greys, one accent, verdict colours; local fonts only.
+/// <summary>The report's inline style sheet: warm ink on paper, one deep-teal accent, verdict colours (see docs/ui.md); local fonts only.
 /// Public so that the service's browser pages around the report look the same.</summary>
 public static class ReportStyles
 {
     /// <summary>The CSS text, without the style element around it.</summary>
     public const string Css = """
-:root { --fg:#1f2328; --muted:#59636e; --line:#d8dee4; --soft:#f5f6f8; --accent:#2563eb;
-        --pass:#1a7f37; --pass-bg:#e8f5ec; --block:#b42318; --block-bg:#fdecea; --warn:#8a5a00; --warn-bg:#fff4d6; }
+:root { --fg:#2b2621; --muted:#6b6158; --line:#ddd3c4; --soft:#f7f3ec; --accent:#2f5d62;
+        --pass:#3d6f2a; --pass-bg:#edf3e4; --block:#9e2a1e; --block-bg:#f8e6e1; --warn:#8a5a00; --warn-bg:#fbf0d5; }
 * { box-sizing: border-box; }
-body { margin: 0; color: var(--fg); background: #fff; font: 14px/1.45 system-ui, -apple-system, "Segoe UI", Roboto, "Helvetica Neue", Arial, sans-serif; }
+body { margin: 0; color: var(--fg); background: #fffdf9; font: 14px/1.45 system-ui, -apple-system, "Segoe UI", Roboto, "Helvetica Neue", Arial, sans-serif; }
 main { max-width: 1200px; margin: 0 auto; padding: 0 24px 32px; }
 h2 { font-size: 20px; margin: 32px 0 8px; padding-bottom: 4px; border-bottom: 1px solid var(--line); }
 h3 { font-size: 15px; margin: 16px 0 6px; }
