@@ -1,3 +1,4 @@
+using AuditSvc.Compute.Models;
 using AuditSvc.Core.Models;
 using Microsoft.ML.OnnxRuntime;
 
@@ -29,6 +30,7 @@ public sealed class ModelRunner : IDisposable
         };
         // Spinning keeps a core busy between kernels; when decoders share the cores it takes their time.
         options.AddSessionConfigEntry("session.intra_op.allow_spinning", spinning ? "1" : "0");
+        OrtEnvironment.EnsureQuiet();
         _session = new InferenceSession(onnx, options);
         _inputNames = [plan.InputName];
         _outputNames = [plan.OutputName, .. reduced ? ReducedGraph.OutputNames(plan.ReadLayers) : plan.ReadLayers.Select(l => l.Name)];

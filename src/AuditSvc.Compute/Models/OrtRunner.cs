@@ -25,6 +25,7 @@ public static class OrtRunner
             GraphOptimizationLevel = level, IntraOpNumThreads = 1, InterOpNumThreads = 1,
             LogSeverityLevel = OrtLoggingLevel.ORT_LOGGING_LEVEL_FATAL,
         };
+        OrtEnvironment.EnsureQuiet();
         using var session = new InferenceSession(model, options);
         var names = outputNames ?? session.OutputNames;
         using var value = OrtValue.CreateTensorValueFromMemory(input.Data, input.Shape);
