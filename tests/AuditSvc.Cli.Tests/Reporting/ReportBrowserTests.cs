@@ -103,9 +103,9 @@ public sealed class ReportBrowserTests(ITestOutputHelper output) : IDisposable
         output.WriteLine($"inked share {inked / (double)total:P1}");
         Assert.True(inked > total / 20, $"only {inked} of {total} sampled pixels are not white");
 
-        // The inline style applied: the top band carries the block colour (#b42318).
+        // The inline style applied: the top band carries the palette's block colour (--block #9e2a1e, docs/ui.md).
         var band = shot[640, 20];
-        Assert.Equal(new Rgb24(0xb4, 0x23, 0x18), band);
+        Assert.Equal(new Rgb24(0x9e, 0x2a, 0x1e), band);
 
         // For a person to look at: AUDITSVC_REPORT_SCREENSHOT=/some/file.png keeps the picture and the page beside it.
         var keep = Environment.GetEnvironmentVariable("AUDITSVC_REPORT_SCREENSHOT");
