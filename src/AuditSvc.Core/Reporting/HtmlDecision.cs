@@ -176,7 +176,7 @@ public static partial class HtmlReport
             { Report.Verdict: "block" } => ("m-block", "✕ blocks: confounded"),
             _ => ("m-pass", "○ not followed"),
         };
-        sb.Append("<span class=\"mark ").Append(cls).Append("\">").Append(text).Append("</span>");
+        sb.Append("<span class=\"cc-mark ").Append(cls).Append("\">").Append(text).Append("</span>");
     }
 
     private static void Glossary(StringBuilder sb)

@@ -76,6 +76,19 @@ public static partial class HtmlReport
           .Append("<dt>Scored</dt><dd>").Append(Int(r.Pass.Scored)).Append(" of ").Append(Int(r.Pass.Images)).Append(" sent to the model</dd>")
           .Append("<dt>Labels</dt><dd>").Append(E(string.Join(", ", s.Labels.Select(l => $"{l.Value} ({l.Count})")))).Append("</dd>")
           .Append("</dl></div>\n</section>\n");
+        Layers(sb, m);
+    }
+
+    /// <summary>The layers read, in the order the graph computes them, each with a short name beside its tensor.</summary>
+    private static void Layers(StringBuilder sb, ModelSummary m)
+    {
+        sb.Append("<section id=\"layers\"><h2>Layers read (").Append(Int(m.Layers.Count)).Append(")</h2>\n<table class=\"compact\"><thead><tr><th>Layer</th><th>Tensor</th>")
+          .Append("<th>Operator</th><th class=\"num\">Units</th><th class=\"num\">Places</th><th class=\"num\">Receptive field</th></tr></thead><tbody>\n");
+        foreach (var l in m.Layers)
+            sb.Append("<tr><td>").Append(E(PlainWords.LayerName(l.Name))).Append("</td><td class=\"mono\">").Append(E(l.Name)).Append("</td><td>")
+              .Append(E(l.OpType)).Append("</td><td class=\"num\">").Append(Int(l.Channels)).Append("</td><td class=\"num\">").Append(l.Height).Append(" × ").Append(l.Width)
+              .Append("</td><td class=\"num\">").Append(Num(l.FieldX.Size, 0)).Append(" × ").Append(Num(l.FieldY.Size, 0)).Append(" px</td></tr>\n");
+        sb.Append("</tbody></table></section>\n");
     }
 
     private static void Contents(StringBuilder sb, AuditResult r)

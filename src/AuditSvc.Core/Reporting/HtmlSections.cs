@@ -109,7 +109,7 @@ public static partial class HtmlReport
     {
         sb.Append("<section id=\"problems\"><h2>Intake and pass problems</h2>\n");
         ProblemTable(sb, "Rows skipped at intake", r.ImageSet.Problems);
-        ProblemTable(sb, "Images that failed in the pass", r.Pass.Problems);
+        ProblemTable(sb, "Images that failed in the activation run", r.Pass.Problems);
         sb.Append("</section>\n");
     }
 

@@ -118,7 +118,7 @@ h2.part { font-size: 13px; text-transform: uppercase; letter-spacing: .12em; col
 .cc-head h3 { margin: 2px 0 6px; font-size: 16px; }
 .toward { font-weight: 400; color: var(--muted); font-size: 14px; }
 .toward strong { color: var(--fg); }
-.mark { font-weight: 700; font-size: 12.5px; letter-spacing: .03em; white-space: nowrap; padding: 1px 8px; border: 1.5px solid currentColor; }
+.cc-mark { font-weight: 700; font-size: 12.5px; letter-spacing: .03em; white-space: nowrap; padding: 1px 8px; border: 1.5px solid currentColor; }
 .mark-s { font-weight: 700; font-size: 11.5px; white-space: nowrap; }
 .m-block { color: var(--block); }
 .m-pass { color: var(--pass); }
