@@ -69,7 +69,7 @@ internal static class AuditPage
             CardFooter = card => CueReview.Footer(card, id, token, recorded, just),
         };
         var result = AuditJson.Deserialize(json);
-        sb.Append("<div class=\"decision\">").Append(HtmlReport.Decision(result, new LinkedExemplars(id), view)).Append("</div>\n<div class=\"page\">");
+        sb.Append("<div class=\"decision-view\">").Append(HtmlReport.Decision(result, new LinkedExemplars(id), view)).Append("</div>\n<div class=\"page\">");
         CueReview.History(sb, recorded);
         sb.Append("<p class=\"more-links\"><a href=\"/ui/audits/").Append(id).Append("/report\">The full report</a> (every finding, place pattern, group accuracy, ")
           .Append("problem and the policy; one self-contained file) · <a href=\"/api/audits/").Append(id).Append("/findings\">findings as JSON</a></p></div>\n");

@@ -49,7 +49,9 @@ form.review textarea { width: min(480px, 100%); height: 2.4em; }
 .decision { font-weight: 700; }
 .crumbs { margin: 12px 0 0; color: var(--muted); }
 .meta { color: var(--muted); margin: 0 0 8px; }
-.decision > .verdict { margin-top: 4px; }
+.decision-view > .verdict { margin-top: 4px; }
+.filters select { max-width: 13em; }
+.filters input[type=text] { width: 16em; }
 .confirm { background: var(--pass-bg); color: var(--pass); border: 1px solid var(--pass); padding: 6px 10px; margin: 0 0 8px; font-weight: 600; }
 .decided { margin: 0 0 8px; }
 form.decide { display: flex; flex-wrap: wrap; gap: 8px 16px; align-items: flex-start; }
