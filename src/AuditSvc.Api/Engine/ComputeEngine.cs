@@ -74,7 +74,10 @@ public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine
         try
         {
             var options = PassOptionsFor(inputs) with { SpillDirectory = Path.Combine(inputs.WorkDirectory, "scores") };
-            var result = AuditPipeline.FinishChunks(Model(inputs.ModelPath), inputs.Items, parsed, policy, options, passSeconds, ct: ct);
+            var clock = new PhaseClock();
+            var result = AuditPipeline.FinishChunks(Model(inputs.ModelPath), inputs.Items, parsed, policy, options, passSeconds, clock.Wrap(), ct);
+            // Intake ran at upload and the report is drawn on first request: neither is part of this audit's clock.
+            result = result with { Phases = clock.Times(intake: null, report: null, pass: passSeconds) };
             return Outcome(AuditJson.Serialize(result) + "\n", result);
         }
         finally

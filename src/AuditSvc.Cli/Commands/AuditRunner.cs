@@ -13,16 +13,19 @@ internal static class AuditRunner
         Directory.CreateDirectory(outDir);
         bool tty = !Console.IsErrorRedirected;
         var progress = new Progress(tty);
-        var run = AuditPipeline.Run(request, progress, (stage, what) => progress.Stage(stage, what), ct);
+        var clock = new PhaseClock();
+        var run = AuditPipeline.Run(request, progress, clock.Wrap(progress.Stage), ct);
         progress.End();
         var json = Path.Combine(outDir, "audit.json");
         var html = Path.Combine(outDir, "report.html");
-        AuditJson.Write(json, run.Result);
-        var images = ExemplarImagesFor(run);
-        File.WriteAllText(html, HtmlReport.Render(run.Result, images));
+        var drawing = System.Diagnostics.Stopwatch.StartNew();
+        File.WriteAllText(html, HtmlReport.Render(run.Result, ExemplarImagesFor(run)));
+        // audit.json last, so it carries the report's time too (the report shows the phases before it).
+        var result = run.Result with { Phases = clock.Times(clock.Seconds(AuditStage.Intake), drawing.Elapsed.TotalSeconds) };
+        AuditJson.Write(json, result);
         TryDelete(request.WorkDirectory);
-        PrintSummary(run.Result, json, html);
-        return run.Result.Verdict == "pass" ? ExitCodes.Pass : ExitCodes.Block;
+        PrintSummary(result, json, html);
+        return result.Verdict == "pass" ? ExitCodes.Pass : ExitCodes.Block;
     }
 
     private static IExemplarImages ExemplarImagesFor(AuditRun run) =>
@@ -38,6 +41,9 @@ internal static class AuditRunner
             Console.WriteLine($"  {a.Name,-16} leakage {(a.Leakage is { } l ? l.ToString("0.000", System.Globalization.CultureInfo.InvariantCulture) : "  n/a")}  {a.Verdict,-10} findings {a.Findings}{(a.Note is null ? "" : "  (" + a.Note + ")")}");
         var inferred = r.Candidates.Where(c => c.Attribute is not null).Select(c => c.Attribute!).ToList();
         Console.WriteLine($"findings: {r.Findings.Count} units in {r.CueGroups.Count} cue groups; fixed-place patterns: {r.Candidates.Count}, measured as place cues: {(inferred.Count == 0 ? "none" : string.Join(", ", inferred))}");
+        if (r.Phases is { } t)
+            Console.WriteLine(string.Create(System.Globalization.CultureInfo.InvariantCulture,
+                $"time: intake {t.Intake ?? 0:0.0} s, activation run {t.Pass:0.0} s, analysis {t.Analysis:0.0} s, interventions {t.Interventions:0.0} s, report {t.Report ?? 0:0.0} s"));
         Console.WriteLine($"audit.json: {json}");
         Console.WriteLine($"report:     {html}");
     }
@@ -50,12 +56,20 @@ internal static class AuditRunner
     private sealed class Progress(bool tty) : IProgress<PassProgress>
     {
         private DateTime _last = DateTime.MinValue;
+        private readonly System.Diagnostics.Stopwatch _phase = new();
+        private AuditStage? _current;
 
         public void Stage(AuditStage stage, string what)
         {
             End();
-            Console.Error.WriteLine($"[{stage.ToString().ToLowerInvariant()}] {what}");
+            // Each line says how long the phase before it took, so a user sees where the time goes as it goes.
+            var took = _current is { } c ? string.Create(System.Globalization.CultureInfo.InvariantCulture, $" ({Name(c)} took {_phase.Elapsed.TotalSeconds:0.0} s)") : "";
+            Console.Error.WriteLine($"[{Name(stage)}] {what}{took}");
+            _current = stage;
+            _phase.Restart();
         }
+
+        private static string Name(AuditStage s) => s == AuditStage.Pass ? "activation run" : s.ToString().ToLowerInvariant();
 
         public void Report(PassProgress p)
         {

@@ -21,7 +21,17 @@ public sealed record AuditResult(
     IReadOnlyList<PlaceCandidate> Candidates,
     IReadOnlyList<GroupAccuracy> Groups,
     Coverage Coverage,
-    Gate.AuditPolicy Policy);
+    Gate.AuditPolicy Policy)
+{
+    /// <summary>Where the time went, in seconds per phase; null in documents written before phases were timed.</summary>
+    public PhaseTimes? Phases { get; init; }
+}
+
+/// <summary>
+/// Seconds per phase of one audit. Null where a phase ran elsewhere or later: the service's intake happens at upload,
+/// and its report is drawn when first asked for.
+/// </summary>
+public sealed record PhaseTimes(double? Intake, double Pass, double Analysis, double Interventions, double? Report);
 
 /// <summary>One reason of the verdict: the attribute, the measure that triggered it, its value and the threshold.</summary>
 public sealed record VerdictReason(string Kind, string? Attribute, string? Measure, double? Value, double? Threshold, string Message);

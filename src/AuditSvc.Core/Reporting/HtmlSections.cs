@@ -160,6 +160,9 @@ public static partial class HtmlReport
           .Append("</dd><dt>Batch size</dt><dd>").Append(Int(p.BatchSize))
           .Append("</dd><dt>Units read</dt><dd>").Append(Int(p.Units)).Append(", top ").Append(Int(p.TopN)).Append(" exemplars each")
           .Append("</dd><dt>Intervention runs</dt><dd>").Append(Int(p.InterventionRuns)).Append(" in ").Append(Num(p.InterventionSeconds, 1)).Append(" s")
+          .Append(r.Phases is { } t
+              ? $"</dd><dt>Time per phase</dt><dd>{(t.Intake is { } i ? $"intake {Num(i, 1)} s, " : "")}activation run {Num(t.Pass, 1)} s, analysis {Num(t.Analysis, 1)} s, interventions {Num(t.Interventions, 1)} s"
+              : "")
           .Append("</dd></dl></section>\n");
     }
 }
