@@ -4,9 +4,10 @@ using AuditSvc.Core.Activations;
 namespace AuditSvc.Compute.Activations;
 
 /// <summary>
-/// The scores matrix (images × units) in float16, row-major, in blocks of rows. Blocks stay in memory until the
-/// matrix passes <see cref="MemoryLimitBytes"/>; then every block is written to a file in the spill folder and
-/// dropped, so memory stays bounded as the set grows. Reading a block of units walks the blocks once.
+/// The scores matrix (images × units) in float16, in blocks of rows. Blocks stay in memory, row-major, until the
+/// matrix passes <see cref="MemoryLimitBytes"/>; then every finished block is transposed once and written unit-major
+/// to a file in the spill folder, so memory stays bounded as the set grows and reading a range of units (what the
+/// association scan does, 32 units at a time) reads just those units' bytes from each file, not the whole file.
 /// </summary>
 public sealed class ScoreStore : IUnitScores, IDisposable
 {
@@ -67,7 +68,11 @@ public sealed class ScoreStore : IUnitScores, IDisposable
             foreach (var block in _memory.Keys.Where(b => Math.Min((b + 1) * RowsPerBlock, ItemCount) <= completeBelowItem).ToList())
             {
                 var data = _memory[block];
-                File.WriteAllBytes(BlockPath(block), MemoryMarshal.AsBytes(data.AsSpan()).ToArray());
+                int rows = data.Length / UnitCount;
+                var byUnit = new Half[data.Length];
+                for (int r = 0; r < rows; r++)
+                    for (int u = 0; u < UnitCount; u++) byUnit[(long)u * rows + r] = data[(long)r * UnitCount + u];
+                File.WriteAllBytes(BlockPath(block), MemoryMarshal.AsBytes(byUnit.AsSpan()).ToArray());
                 _memory.Remove(block);
                 _onDisk.Add(block);
                 _memoryBytes -= data.Length * 2L;
@@ -79,18 +84,32 @@ public sealed class ScoreStore : IUnitScores, IDisposable
     {
         destination.Fill(float.NaN);
         int blocks = (ItemCount + RowsPerBlock - 1) / RowsPerBlock;
+        Half[]? slice = null;
         for (int block = 0; block < blocks; block++)
         {
+            int start = block * RowsPerBlock, rows = Math.Min(RowsPerBlock, ItemCount - start);
             Half[]? data;
             lock (_gate) _memory.TryGetValue(block, out data);
-            if (data is null && _onDisk.Contains(block))
-                data = MemoryMarshal.Cast<byte, Half>(File.ReadAllBytes(BlockPath(block))).ToArray();
-            if (data is null) continue;
-            int rows = data.Length / UnitCount, start = block * RowsPerBlock;
-            for (int r = 0; r < rows; r++)
+            if (data is not null)
             {
-                var row = data.AsSpan(r * UnitCount + firstUnit, count);
-                for (int k = 0; k < count; k++) destination[k * ItemCount + start + r] = (float)row[k];
+                for (int r = 0; r < rows; r++)
+                {
+                    var row = data.AsSpan(r * UnitCount + firstUnit, count);
+                    for (int k = 0; k < count; k++) destination[k * ItemCount + start + r] = (float)row[k];
+                }
+                continue;
+            }
+            if (!_onDisk.Contains(block)) continue;
+            // Unit-major on disk: the units asked for are one contiguous run of count × rows values.
+            slice ??= new Half[(long)count * RowsPerBlock];
+            var span = slice.AsSpan(0, count * rows);
+            using (var file = new FileStream(BlockPath(block), FileMode.Open, FileAccess.Read, FileShare.Read, 1, FileOptions.RandomAccess))
+                RandomAccess.Read(file.SafeFileHandle, MemoryMarshal.AsBytes(span), (long)firstUnit * rows * 2);
+            for (int k = 0; k < count; k++)
+            {
+                var values = span.Slice(k * rows, rows);
+                var target = destination.Slice(k * ItemCount + start, rows);
+                for (int r = 0; r < rows; r++) target[r] = (float)values[r];
             }
         }
     }
@@ -105,9 +124,16 @@ public sealed class ScoreStore : IUnitScores, IDisposable
             int rowsHere = Math.Min(start + count, Math.Min(ItemCount, blockStart + RowsPerBlock)) - item;
             Half[]? data;
             lock (_gate) _memory.TryGetValue(block, out data);
-            if (data is null && _onDisk.Contains(block))
-                data = MemoryMarshal.Cast<byte, Half>(File.ReadAllBytes(BlockPath(block))).ToArray();
-            data?.AsSpan((item - blockStart) * UnitCount, rowsHere * UnitCount).CopyTo(destination.Slice((item - start) * UnitCount));
+            if (data is not null)
+                data.AsSpan((item - blockStart) * UnitCount, rowsHere * UnitCount).CopyTo(destination.Slice((item - start) * UnitCount));
+            else if (_onDisk.Contains(block))
+            {
+                var byUnit = MemoryMarshal.Cast<byte, Half>(File.ReadAllBytes(BlockPath(block)));
+                int rows = byUnit.Length / UnitCount;
+                for (int r = 0; r < rowsHere; r++)
+                    for (int u = 0; u < UnitCount; u++)
+                        destination[(item - start + r) * UnitCount + u] = byUnit[u * rows + item - blockStart + r];
+            }
             item += rowsHere;
         }
     }
