@@ -44,20 +44,23 @@ public static class AssociationScan
         var buffer = new float[UnitBlock * n];
         int maxStratum = strataSets.Max(s => s.MaxSize);
         int labels = table.Labels.Count;
+        int maxValues = table.Attributes.Select(c => c.Values.Count).DefaultIfEmpty(1).Max();
+        // One scratch per worker for the whole scan, not one per worker per block: each holds a rank per image.
+        var scratches = new System.Collections.Concurrent.ConcurrentBag<Scratch>();
         for (int first = 0; first < units; first += UnitBlock)
         {
             ct.ThrowIfCancellationRequested();
             int count = Math.Min(UnitBlock, units - first);
             act.Scores.ReadUnits(first, count, buffer.AsSpan(0, count * n));
             Parallel.For(0, count, new ParallelOptions { CancellationToken = ct },
-                () => new Scratch(n, maxStratum, labels, table.Attributes.Select(c => c.Values.Count).DefaultIfEmpty(1).Max()),
+                () => scratches.TryTake(out var kept) ? kept : new Scratch(n, maxStratum, labels, maxValues),
                 (k, _, s) =>
                 {
                     var scores = buffer.AsSpan(k * n, n);
                     ScanUnit(first + k, scores, strataSets, strataOf, values, valueOffset, table, policy, tests.AsSpan((first + k) * perUnit, perUnit), s);
                     return s;
                 },
-                _ => { });
+                scratches.Add);
         }
         var p = tests.Select(t => t.PValue).ToArray();
         return new ScanResult(tests, BenjaminiHochberg.Adjust(p));
