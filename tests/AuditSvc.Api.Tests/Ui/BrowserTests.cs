@@ -27,7 +27,7 @@ public sealed class BrowserTests(ITestOutputHelper output)
         using var session = new BrowserSession(svc);
         (await session.LoginAsync(key)).Dispose();
         var token = BrowserSession.TokenIn(await session.GetPageAsync($"/ui/audits/{id}"));
-        using (var review = await session.PostFormAsync($"/ui/audits/{id}/reviews", ("__af", token), ("cue", "stamp=yes"), ("decision", "spurious-cue"),
+        using (var review = await session.PostFormAsync($"/ui/audits/{id}/reviews", ("__af", token), ("cue", "stamp=yes"), ("decision", "spurious"),
             ("comment", "corner stamp, not fruit")))
             Assert.Equal(HttpStatusCode.SeeOther, review.StatusCode);
         var shots = Directory.CreateTempSubdirectory("auditsvc-shots-").FullName;
