@@ -197,4 +197,32 @@ public sealed class ReviewEndpointsTests
 
         await AssertProblemAsync(early, HttpStatusCode.Conflict, "verdict");
     }
+
+    [PgFact]
+    public async Task Override_Signed_IsShownInTheVerdictAndSupersedesTheEarlierOne()
+    {
+        await using var svc = await ServiceUnderTest.StartAsync(workers: 1);
+        var (client, key) = await SignedClientAsync(svc, "team-a", "rita");
+        using var _ = client;
+        var id = await DoneAuditAsync(svc, client);
+
+        var first = await client.PostAsJsonAsync($"/api/audits/{id}/reviews", new { decision = "override", verdict = "block", reason = "stamp seen on 3 of 9 exemplars" });
+        var second = await client.PostAsJsonAsync($"/api/audits/{id}/reviews", new { decision = "override", verdict = "block", reason = "confirmed with the line lead" });
+
+        Assert.Equal((HttpStatusCode.Created, HttpStatusCode.Created), (first.StatusCode, second.StatusCode));
+        var firstId = (await first.Content.ReadFromJsonAsync<JsonElement>()).GetProperty("id").GetGuid();
+        var verdict = await client.GetFromJsonAsync<JsonElement>($"/api/audits/{id}/verdict");
+        Assert.Equal(("block", "pass", true), (verdict.GetProperty("verdict").GetString(), verdict.GetProperty("engineVerdict").GetString(),
+            verdict.GetProperty("overridden").GetBoolean()));
+        var o = verdict.GetProperty("override");
+        Assert.Equal(("block", "confirmed with the line lead", $"rita ({key.Prefix})", key.Id),
+            (o.GetProperty("verdict").GetString(), o.GetProperty("reason").GetString(), o.GetProperty("reviewer").GetString(),
+             o.GetProperty("signer").GetProperty("keyId").GetGuid()));
+        var history = await client.GetFromJsonAsync<JsonElement>($"/api/audits/{id}/reviews");
+        Assert.Equal(("verdict", "override"), (history[0].GetProperty("subject").GetString(), history[0].GetProperty("decision").GetString()));
+        Assert.Equal(history[1].GetProperty("id").GetGuid(), history[0].GetProperty("supersededBy").GetProperty("id").GetGuid());
+        Assert.Equal($"rita ({key.Prefix})", history[0].GetProperty("supersededBy").GetProperty("reviewer").GetString());
+        Assert.Equal(firstId, history[1].GetProperty("supersedes").GetGuid());
+        Assert.Equal(JsonValueKind.Null, history[1].GetProperty("supersededBy").ValueKind);
+    }
 }
