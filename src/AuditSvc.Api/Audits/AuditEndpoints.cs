@@ -31,7 +31,8 @@ public static class AuditEndpoints
         group.MapGet("/{id:guid}/result", Result).WithSummary("audit.json, the same document the command line writes.")
             .Produces(200, contentType: "application/json");
         group.MapGet("/{id:guid}/verdict", Verdict)
-            .WithSummary("The verdict that stands (a signed override's, else the engine's), the engine's verdict and the override; 409 while the audit is not done.");
+            .WithSummary("The verdict that stands (a signed override's, else the engine's), the engine's verdict and the override; 409 while the audit is not done.")
+            .Produces<VerdictResponse>().ProducesProblem(404).ProducesProblem(409);
         group.MapPost("/{id:guid}/cancel", Cancel);
         return api;
     }

@@ -21,10 +21,11 @@ public static class ReviewEndpoints
         group.MapGet("/findings", Findings).WithSummary("The audit's findings, in the order of audit.json.");
         group.MapGet("/report", Report).WithSummary("The browser report (HTML) of a finished audit, with exemplar crops.")
             .Produces(200, contentType: "text/html");
-        group.MapGet("/reviews", List).WithSummary("The audit's review history, oldest first: who decided what, when, and superseded by whom.");
+        group.MapGet("/reviews", List).WithSummary("The audit's review history, oldest first: who decided what, when, and superseded by whom.")
+            .Produces<List<ReviewResponse>>().ProducesProblem(404);
         group.MapPost("/reviews", Add)
             .WithSummary("Record a decision signed by the calling key: spurious, acceptable (with a reason) or needs-data on a finding or cue; override (verdict and reason) on the audit.")
-            .ProducesValidationProblem().ProducesValidationProblem(422);
+            .Produces<ReviewResponse>(201).ProducesValidationProblem().ProducesValidationProblem(422).ProducesProblem(404).ProducesProblem(409);
         return api;
     }
 
