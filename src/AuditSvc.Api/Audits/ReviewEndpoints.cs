@@ -35,20 +35,23 @@ public static class ReviewEndpoints
                 f.OddsRatio, f.QValue, f.Region, JsonText.Element(f.DetailJson))).ToList())
             : NotFound(id);
 
-    private static async Task<IResult> Report(Guid id, HttpContext http, AuditStore audits, AuditInputsLoader loader,
-        IAuditEngine engine, CancellationToken ct)
+    private static async Task<IResult> Report(Guid id, HttpContext http, AuditStore audits, ReportCache reports, CancellationToken ct)
     {
         var team = http.User.TeamId();
         if (await audits.ResultAsync(team, id, ct) is not { } json)
             return await audits.GetAsync(team, id, ct) is { } a
                 ? TypedResults.Problem(statusCode: 409, title: $"audit {id} is {a.State}, not done", extensions: new Dictionary<string, object?> { ["state"] = a.State })
                 : NotFound(id);
-        return TypedResults.Text(await RenderReportAsync(id, json, loader, engine, ct), "text/html; charset=utf-8");
+        return ReportFile(http, await reports.PathAsync(id, json, ct));
     }
 
-    /// <summary>The report page of a finished audit (its audit.json and exemplar crops); the browser pages embed the same.</summary>
-    internal static async Task<string> RenderReportAsync(Guid id, string auditJson, AuditInputsLoader loader, IAuditEngine engine, CancellationToken ct) =>
-        await engine.RenderReportAsync(await loader.LoadAsync(id, ct), auditJson, ct);
+    /// <summary>A cached report file: private to the team, revalidated by its ETag (the audit's id: a finished report never changes).</summary>
+    internal static IResult ReportFile(HttpContext http, string path)
+    {
+        http.Response.Headers.CacheControl = "private, max-age=3600";
+        return TypedResults.PhysicalFile(path, "text/html; charset=utf-8",
+            entityTag: new Microsoft.Net.Http.Headers.EntityTagHeaderValue("\"" + Path.GetFileNameWithoutExtension(path) + "\""));
+    }
 
     private static async Task<IResult> List(Guid id, HttpContext http, ReviewStore reviews, CancellationToken ct) =>
         await reviews.HistoryAsync(http.User.TeamId(), id, ct) is { } rows

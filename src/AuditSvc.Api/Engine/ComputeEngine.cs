@@ -90,6 +90,15 @@ public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine
         return HtmlReport.Render(result, images);
     }, ct);
 
+    public Task<byte[]?> RenderExemplarAsync(AuditInputs inputs, int item, BoxDto box, bool whole, CancellationToken ct) => Task.Run(() =>
+    {
+        if ((uint)item >= (uint)inputs.Items.Items.Count) return null;
+        // The stored recipe is the one the pass used; no need to load the model for a picture.
+        var recipe = JsonSerializer.Deserialize<AuditSvc.Core.Models.InputRecipe>(inputs.RecipeJson, ApiJson.Options)
+            ?? throw new AuditInputException("recipe", "is empty");
+        return new ExemplarImages(i => inputs.Items.Items[i].Path, recipe).Png(item, box, whole);
+    }, ct);
+
     private static AuditOutcome Outcome(string json, AuditResult result)
     {
         var findings = result.Findings.Select((f, i) => new FindingRow(i, f.Layer, f.Unit, f.Attribute, f.Value,

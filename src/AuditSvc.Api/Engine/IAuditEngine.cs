@@ -32,6 +32,13 @@ public interface IAuditEngine
     /// <summary>The browser report for a finished audit: its audit.json with the exemplar crops cut from the set's images.</summary>
     Task<string> RenderReportAsync(AuditInputs inputs, string auditJson, CancellationToken ct);
 
+    /// <summary>
+    /// One exemplar picture of an audit as PNG: the peak box with a margin, or the whole image at the model's framing
+    /// with the box outlined. Null when the item or its file cannot be read (the page shows a placeholder).
+    /// </summary>
+    Task<byte[]?> RenderExemplarAsync(AuditInputs inputs, int item, AuditSvc.Core.Audits.BoxDto box, bool whole, CancellationToken ct) =>
+        Task.FromResult<byte[]?>(null);
+
     /// <summary>Merges the chunk results (in chunk order) and runs the analysis: audit.json, verdict, findings, scores.</summary>
     Task<AuditOutcome> FinishAsync(AuditInputs inputs, IReadOnlyList<byte[]> chunks, CancellationToken ct);
 }

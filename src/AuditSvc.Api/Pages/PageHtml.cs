@@ -17,15 +17,16 @@ internal static class PageHtml
 
     // Added to the report's sheet, in its colours; no external fonts, images or scripts.
     private const string PageCss = """
-.topbar { display: flex; align-items: center; gap: 16px; padding: 8px 24px; background: #3a2f4a; color: #fff; font-size: 13px; }
-.topbar a { color: #fff; text-decoration: none; }
-.topbar .brand { font-weight: 800; letter-spacing: .04em; }
-.topbar .who { color: #e0d6ea; }
+.topbar { display: flex; align-items: baseline; gap: 18px; padding: 10px 24px 8px; background: var(--soft); border-bottom: 3px solid var(--accent); font-size: 13px; }
+.topbar a { color: var(--fg); text-decoration: none; }
+.topbar a:hover, .topbar a:focus { text-decoration: underline; }
+.topbar .brand { font-family: Georgia, "DejaVu Serif", serif; font-size: 18px; font-weight: 700; color: var(--accent); }
+.topbar .who { color: var(--muted); }
 .topbar form { margin: 0 0 0 auto; }
-.topbar button { background: transparent; color: #fff; border: 1px solid #a897bd; }
+.topbar button { background: transparent; color: var(--fg); border: 1px solid var(--line); }
 .page { max-width: 1200px; margin: 0 auto; padding: 8px 24px 24px; }
 .page h1 { font-size: 22px; margin: 16px 0 4px; }
-button { font: inherit; padding: 4px 12px; border-radius: 4px; border: 1px solid var(--accent); background: var(--accent); color: #fff; cursor: pointer; }
+button { font: inherit; padding: 4px 12px; border-radius: 0; border: 1px solid var(--accent); background: var(--accent); color: #fff; cursor: pointer; }
 select, input[type=text], input[type=password], textarea { font: inherit; padding: 4px 6px; border: 1px solid var(--line); border-radius: 4px; background: #fff; }
 label { font-weight: 600; }
 .error { color: var(--block); background: var(--block-bg); border: 1px solid #f3b5ae; padding: 8px 12px; border-radius: 4px; }
@@ -46,6 +47,22 @@ form.review textarea { width: min(480px, 100%); height: 2.4em; }
 .reviews { margin: 4px 0; font-size: 13px; }
 .reviews li { margin: 2px 0; }
 .decision { font-weight: 700; }
+.crumbs { margin: 12px 0 0; color: var(--muted); }
+.meta { color: var(--muted); margin: 0 0 8px; }
+.decision-view > .verdict { margin-top: 4px; }
+.filters select { max-width: 13em; }
+.filters input[type=text] { width: 16em; }
+.confirm { background: var(--pass-bg); color: var(--pass); border: 1px solid var(--pass); padding: 6px 10px; margin: 0 0 8px; font-weight: 600; }
+.decided { margin: 0 0 8px; }
+form.decide { display: flex; flex-wrap: wrap; gap: 8px 16px; align-items: flex-start; }
+form.decide fieldset { border: 0; padding: 0; margin: 0; display: flex; flex-direction: column; gap: 2px; }
+form.decide legend { font-weight: 700; margin-bottom: 4px; padding: 0; }
+form.decide label { font-weight: 400; }
+form.decide textarea { width: min(420px, 100%); }
+form.decide button { align-self: flex-end; }
+table.history tr.superseded td { color: var(--muted); }
+.more-links { margin: 16px 0 32px; }
+:focus-visible { outline: 3px solid var(--warn); outline-offset: 2px; }
 """;
 
     public static string E(string? s) => s is null ? "" : WebUtility.HtmlEncode(s);

@@ -32,7 +32,7 @@ internal static class AuditRunner
     {
         Console.WriteLine($"verdict: {r.Verdict}");
         foreach (var reason in r.Reasons) Console.WriteLine($"  reason: {reason.Message}");
-        Console.WriteLine($"images: {r.Pass.Scored} of {r.ImageSet.RowsRead} rows audited ({r.ImageSet.RowsRead - r.ImageSet.RowsUsed} rows rejected at intake, {r.Pass.Problems.Count} failed in the pass), {r.Pass.ImagesPerSecond:0} images/s");
+        Console.WriteLine($"images: {r.Pass.Scored} of {r.ImageSet.RowsRead} rows audited ({r.ImageSet.RowsRead - r.ImageSet.RowsUsed} rows rejected at intake, {r.Pass.Problems.Count} failed in the activation run), {r.Pass.ImagesPerSecond:0} images/s");
         foreach (var p in r.ImageSet.Problems.Where(p => p.Row is null)) Console.WriteLine($"  note: {p.Reason}");
         foreach (var a in r.Attributes.OrderByDescending(a => a.Leakage ?? -1))
             Console.WriteLine($"  {a.Name,-16} leakage {(a.Leakage is { } l ? l.ToString("0.000", System.Globalization.CultureInfo.InvariantCulture) : "  n/a")}  {a.Verdict,-10} findings {a.Findings}{(a.Note is null ? "" : "  (" + a.Note + ")")}");

@@ -68,18 +68,42 @@ internal sealed class PassCollector
                 Problems.Add(new PassProblem(item, _fileOf(item), batch.Error[i]!));
                 continue;
             }
-            Scored[item] = true;
             var row = batch.Scores.AsSpan(i * _units, _units);
+            var p = Probabilities.AsSpan((int)((long)item * k), k);
+            if (HasNaN(row) || HasNaN(p))
+            {
+                // NaN compares with nothing: ranks, maxima and the prediction would all be arbitrary. Reported, not guessed.
+                Problems.Add(new PassProblem(item, _fileOf(item), "the model produced NaN (not a number) for this image; its scores and prediction were not used"));
+                continue;
+            }
+            ClampToStored(row);
+            Scored[item] = true;
             Store.WriteRow(item, row);
             int b = i * _units;
             for (int u = 0; u < row.Length; u++)
                 if (row[u] >= Top.Threshold(u))
                     Top.Offer(u, new Peak(item, row[u], batch.PeakY[b + u], batch.PeakX[b + u]));
-            var p = Probabilities.AsSpan((int)((long)item * k), k);
             int best = 0;
             for (int c = 1; c < k; c++) if (p[c] > p[best]) best = c;
             Predicted[item] = best;
         }
+    }
+
+    /// <summary>
+    /// Scores are stored as 16-bit floats (±65,504): larger magnitudes, infinities included, are clamped to that range so
+    /// that the stored matrix, the peaks and the exemplars rank alike (the clamped scores tie at the top).
+    /// </summary>
+    internal static bool HasNaN(ReadOnlySpan<float> values)
+    {
+        foreach (var v in values)
+            if (float.IsNaN(v)) return true;
+        return false;
+    }
+
+    internal static void ClampToStored(Span<float> row)
+    {
+        float max = (float)Half.MaxValue;
+        for (int u = 0; u < row.Length; u++) row[u] = Math.Clamp(row[u], -max, max);
     }
 
     public ActivationResult Result(IReadOnlyList<LayerSlice> layers) =>

@@ -46,8 +46,10 @@ public sealed class ExemplarImages(Func<int, string> itemPath, InputRecipe recip
         return _cache.GetOrAdd((e.Item, e.Box, true), k => Render(k.Item, k.Box, whole: true));
     }
 
-    private string? Render(int item, BoxDto box, bool whole)
+    /// <summary>The picture as PNG bytes (for a page that links its images), or null when the image cannot be read.</summary>
+    public byte[]? Png(int item, BoxDto box, bool whole)
     {
+        ArgumentNullException.ThrowIfNull(box);
         Image<Rgb24> image;
         try
         {
@@ -55,15 +57,21 @@ public sealed class ExemplarImages(Func<int, string> itemPath, InputRecipe recip
         }
         catch (Exception ex) when (ex is IOException or UnauthorizedAccessException or ImageFormatException or NotSupportedException)
         {
-            return null; // the report shows a placeholder; intake and the pass already list unreadable files
+            return null;
         }
         using (image)
         {
             using var picture = whole ? Thumbnail(image, box, out var outline) : CropAround(image, box, out outline);
             DrawOutline(picture, outline);
-            return ToDataUri(picture);
+            using var ms = new MemoryStream();
+            picture.SaveAsPng(ms, new PngEncoder { ColorType = PngColorType.Rgb, CompressionLevel = PngCompressionLevel.BestCompression });
+            return ms.ToArray();
         }
     }
+
+    // The report shows a placeholder for null; intake and the pass already list unreadable files.
+    private string? Render(int item, BoxDto box, bool whole) =>
+        Png(item, box, whole) is { } png ? "data:image/png;base64," + Convert.ToBase64String(png) : null;
 
     private static Image<Rgb24> CropAround(Image<Rgb24> image, BoxDto box, out Rectangle outline)
     {
@@ -126,12 +134,5 @@ public sealed class ExemplarImages(Func<int, string> itemPath, InputRecipe recip
     {
         if ((uint)x < (uint)image.Width && (uint)y < (uint)image.Height)
             image[x, y] = along / Dash % 2 == 0 ? OutlineA : OutlineB;
-    }
-
-    private static string ToDataUri(Image<Rgb24> image)
-    {
-        using var ms = new MemoryStream();
-        image.SaveAsPng(ms, new PngEncoder { ColorType = PngColorType.Rgb, CompressionLevel = PngCompressionLevel.BestCompression });
-        return "data:image/png;base64," + Convert.ToBase64String(ms.GetBuffer(), 0, (int)ms.Length);
     }
 }

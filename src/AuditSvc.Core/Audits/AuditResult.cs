@@ -82,6 +82,12 @@ public sealed record Measure(string Name, double Value, int N, double Low, doubl
 
     /// <summary>The cue an intervention was run on ("stamp=yes → mouldy"); null for the attribute-wide gap.</summary>
     public string? Cue { get; init; }
+
+    /// <summary>An intervention's pairs whose outcome happened in the treated arm; null for the gap.</summary>
+    public int? TreatedHits { get; init; }
+
+    /// <summary>An intervention's pairs whose outcome happened in the control arm; null for the gap.</summary>
+    public int? ControlHits { get; init; }
 }
 
 public sealed record AttributeReport(

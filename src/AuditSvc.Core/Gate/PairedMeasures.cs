@@ -36,6 +36,10 @@ public static class PairedMeasures
         double effect = (b - c) / (double)n;
         return new Measure(name, effect, n, low, high, test.PExact,
             string.Create(CultureInfo.InvariantCulture,
-                $"{design}; {a + b}/{n} {what} treated, {a + c}/{n} control; {b} pairs only treated, {c} only control (McNemar exact, Newcombe paired interval)"));
+                $"{design}; {a + b}/{n} {what} treated, {a + c}/{n} control; {b} pairs only treated, {c} only control (McNemar exact, Newcombe paired interval)"))
+        {
+            TreatedHits = a + b,
+            ControlHits = a + c,
+        };
     }
 }

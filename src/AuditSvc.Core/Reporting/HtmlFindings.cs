@@ -10,7 +10,7 @@ public static partial class HtmlReport
     /// <summary>Exemplars drawn per unit (Zeiler &amp; Fergus show nine).</summary>
     private const int ExemplarsShown = 9;
 
-    private static void Findings(StringBuilder sb, AuditResult r, IExemplarImages images)
+    private static void Findings(StringBuilder sb, AuditResult r, IExemplarImages images, Pictures pics)
     {
         sb.Append("<section id=\"findings\"><h2>Findings (").Append(Int(r.Findings.Count)).Append(")</h2>\n")
           .Append("<p class=\"muted\">Units whose scores, ranked within each label, are higher on images with the cue (van Elteren test, ")
@@ -20,14 +20,14 @@ public static partial class HtmlReport
             sb.Append("<p class=\"muted\">No findings.</p></section>\n");
             return;
         }
-        foreach (var f in r.Findings.Take(MaxFindings)) Finding(sb, f, images);
+        foreach (var f in r.Findings.Take(MaxFindings)) Finding(sb, f, images, pics);
         if (r.Findings.Count > MaxFindings)
             sb.Append("<p class=\"more\">").Append(Int(r.Findings.Count - MaxFindings)).Append(" more finding")
               .Append(r.Findings.Count - MaxFindings == 1 ? "" : "s").Append(" in audit.json (this page shows the first ").Append(MaxFindings).Append(").</p>\n");
         sb.Append("</section>\n");
     }
 
-    private static void Finding(StringBuilder sb, Finding f, IExemplarImages images)
+    private static void Finding(StringBuilder sb, Finding f, IExemplarImages images, Pictures pics)
     {
         sb.Append("<article class=\"finding\" id=\"f-").Append(Anchor(f.Layer)).Append('-').Append(f.Unit).Append("\">\n<h3><span class=\"mono\">")
           .Append(E(f.Layer)).Append(" / unit ").Append(f.Unit).Append("</span> <span class=\"cue\">").Append(E(f.Attribute)).Append('=').Append(E(f.Value))
@@ -36,7 +36,7 @@ public static partial class HtmlReport
           .Append(Stat("AUROC", Num(f.Auroc))).Append(Stat("q", P(f.QValue))).Append(Stat("odds ratio", Num(f.OddsRatio, 1)))
           .Append(Stat("region", E(f.Region))).Append(Stat("z", Num(f.Z, 1)))
           .Append("</div>\n<div class=\"finding-body\">\n");
-        ExemplarGrid(sb, f.Exemplars, images);
+        ExemplarGrid(sb, f.Exemplars, images, pics);
         sb.Append("<div class=\"side\">");
         PeakMap(sb, f.PeakGrid);
         sb.Append("<h4>Exemplar make-up</h4><dl class=\"grid tight\">")
@@ -56,7 +56,7 @@ public static partial class HtmlReport
         sb.Append("</div>\n</div>\n</article>\n");
     }
 
-    private static void Candidates(StringBuilder sb, AuditResult r, IExemplarImages images)
+    private static void Candidates(StringBuilder sb, AuditResult r, IExemplarImages images, Pictures pics)
     {
         sb.Append("<section id=\"candidates\"><h2>Patterns at one fixed place</h2>\n")
           .Append("<p class=\"muted\">Several live units peaking at the same place across images of several labels point to a cue nobody labelled (a stamp, a frame, a ruler). ")
@@ -78,13 +78,13 @@ public static partial class HtmlReport
               .Append(Stat("images carrying it", Int(c.Carriers)))
               .Append("</div>\n<p class=\"mono small\">").Append(E(string.Join(", ", c.UnitRefs))).Append("</p>\n<div class=\"finding-body\">");
             // Whole images: for a fixed-place pattern the point is where on the image it fires.
-            ExemplarGrid(sb, c.Exemplars, images, whole: true);
+            ExemplarGrid(sb, c.Exemplars, images, pics, whole: true);
             sb.Append("</div></article>\n");
         }
         sb.Append("</section>\n");
     }
 
-    private static void ExemplarGrid(StringBuilder sb, IReadOnlyList<Exemplar> exemplars, IExemplarImages images, bool whole = false)
+    private static void ExemplarGrid(StringBuilder sb, IReadOnlyList<Exemplar> exemplars, IExemplarImages images, Pictures pics, bool whole = false)
     {
         sb.Append(whole ? "<div class=\"exemplars whole\">" : "<div class=\"exemplars\">");
         foreach (var e in exemplars.Take(ExemplarsShown))
@@ -93,7 +93,7 @@ public static partial class HtmlReport
             sb.Append("<figure title=\"").Append(E(e.Image)).Append(" · box ").Append(e.Box.X).Append(',').Append(e.Box.Y).Append(' ')
               .Append(e.Box.Width).Append('×').Append(e.Box.Height).Append("\">");
             if (src is null) sb.Append("<div class=\"placeholder\">image unavailable</div>");
-            else sb.Append("<img src=\"").Append(E(src)).Append("\" alt=\"").Append(whole ? "" : "peak of ").Append(E(Path.GetFileName(e.Image))).Append("\">");
+            else sb.Append(pics.Tag(src, (whole ? "" : "peak of ") + Path.GetFileName(e.Image)));
             sb.Append("<figcaption><span class=\"lbl\">").Append(E(e.Label)).Append("</span> · ").Append(e.Value is null ? Dash : E(e.Value))
               .Append("<br><span class=\"muted\">").Append(Num(e.Score)).Append("</span></figcaption></figure>");
         }

@@ -21,31 +21,38 @@ public static partial class HtmlReport
     public static string FindingAnchor(string layer, int unit) =>
         $"f-{Anchor(layer)}-{unit.ToString(System.Globalization.CultureInfo.InvariantCulture)}";
 
-    public static string Render(AuditResult result, IExemplarImages images)
+    public static string Render(AuditResult result, IExemplarImages images) => Render(result, images, ReportView.Standalone);
+
+    public static string Render(AuditResult result, IExemplarImages images, ReportView view)
     {
         ArgumentNullException.ThrowIfNull(result);
         ArgumentNullException.ThrowIfNull(images);
-        var sb = new StringBuilder(64 * 1024);
+        ArgumentNullException.ThrowIfNull(view);
+        var pics = new Pictures();
+        var body = new StringBuilder(64 * 1024);
+        // The decision first (verdict, cue cards, scope), then the details a second reviewer needs.
+        DecisionView(body, result, images, view, pics);
+        body.Append("<main class=\"details\">\n<h2 class=\"part\" id=\"details\">Details</h2>\n");
+        Header(body, result);
+        Contents(body, result);
+        Attributes(body, result);
+        CueGroups(body, result);
+        Findings(body, result, images, pics);
+        Candidates(body, result, images, pics);
+        Groups(body, result);
+        Problems(body, result);
+        Policy(body, result);
+        PassBlock(body, result);
+        body.Append("</main>\n<footer>").Append(E(result.Tool)).Append(" · schema ").Append(E(result.SchemaVersion))
+          .Append(" · ").Append(E(result.CreatedAt.ToString("yyyy-MM-dd HH:mm:ss zzz", System.Globalization.CultureInfo.InvariantCulture)))
+          .Append(" · the full record is audit.json</footer>\n");
+
+        var sb = new StringBuilder(body.Length + 16 * 1024);
         sb.Append("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n")
           .Append("<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n")
           .Append("<title>Audit ").Append(E(result.Verdict)).Append(" — ").Append(E(Path.GetFileName(result.Model.Path))).Append("</title>\n")
-          .Append("<style>").Append(ReportStyles.Css).Append("</style>\n</head>\n<body>\n");
-        Header(sb, result);
-        sb.Append("<main>\n");
-        Contents(sb, result);
-        Reasons(sb, result);
-        CoverageBlock(sb, result.Coverage);
-        Attributes(sb, result);
-        CueGroups(sb, result);
-        Findings(sb, result, images);
-        Candidates(sb, result, images);
-        Groups(sb, result);
-        Problems(sb, result);
-        Policy(sb, result);
-        PassBlock(sb, result);
-        sb.Append("</main>\n<footer>").Append(E(result.Tool)).Append(" · schema ").Append(E(result.SchemaVersion))
-          .Append(" · ").Append(E(result.CreatedAt.ToString("yyyy-MM-dd HH:mm:ss zzz", System.Globalization.CultureInfo.InvariantCulture)))
-          .Append(" · the full record is audit.json</footer>\n</body>\n</html>\n");
+          .Append("<style>").Append(ReportStyles.Css).Append(pics.Styles()).Append("</style>\n</head>\n<body>\n")
+          .Append(body).Append("</body>\n</html>\n");
         return sb.ToString();
     }
 
@@ -54,17 +61,6 @@ public static partial class HtmlReport
         var m = r.Model;
         var s = r.ImageSet;
         int rejected = s.RowsRead - s.RowsUsed;
-        sb.Append("<header class=\"verdict ").Append(Class(r.Verdict)).Append("\">\n")
-          .Append("<div class=\"verdict-word\" id=\"verdict\">").Append(E(r.Verdict.ToUpperInvariant())).Append("</div>\n")
-          .Append("<div class=\"verdict-text\">")
-          .Append(r.Verdict switch
-          {
-              "pass" => "No attribute outside the policy reached its leakage threshold.",
-              "block" => $"Release blocked: {Int(r.Reasons.Count)} reason{(r.Reasons.Count == 1 ? "" : "s")} below.",
-              _ => "Unrecognised verdict.",
-          })
-          .Append("</div>\n</header>\n");
-
         sb.Append("<section class=\"summary\">\n<div class=\"card\"><h2>Model</h2><dl>")
           .Append("<dt>File</dt><dd class=\"mono\">").Append(E(m.Path)).Append("</dd>")
           .Append("<dt>SHA-256</dt><dd class=\"mono\" title=\"").Append(E(m.Sha256)).Append("\">").Append(E(Short(m.Sha256))).Append("…</dd>")
@@ -80,33 +76,27 @@ public static partial class HtmlReport
           .Append("<dt>Scored</dt><dd>").Append(Int(r.Pass.Scored)).Append(" of ").Append(Int(r.Pass.Images)).Append(" sent to the model</dd>")
           .Append("<dt>Labels</dt><dd>").Append(E(string.Join(", ", s.Labels.Select(l => $"{l.Value} ({l.Count})")))).Append("</dd>")
           .Append("</dl></div>\n</section>\n");
+        Layers(sb, m);
+    }
+
+    /// <summary>The layers read, in the order the graph computes them, each with a short name beside its tensor.</summary>
+    private static void Layers(StringBuilder sb, ModelSummary m)
+    {
+        sb.Append("<section id=\"layers\"><h2>Layers read (").Append(Int(m.Layers.Count)).Append(")</h2>\n<table class=\"compact\"><thead><tr><th>Layer</th><th>Tensor</th>")
+          .Append("<th>Operator</th><th class=\"num\">Units</th><th class=\"num\">Places</th><th class=\"num\">Receptive field</th></tr></thead><tbody>\n");
+        foreach (var l in m.Layers)
+            sb.Append("<tr><td>").Append(E(PlainWords.LayerName(l.Name))).Append("</td><td class=\"mono\">").Append(E(l.Name)).Append("</td><td>")
+              .Append(E(l.OpType)).Append("</td><td class=\"num\">").Append(Int(l.Channels)).Append("</td><td class=\"num\">").Append(l.Height).Append(" × ").Append(l.Width)
+              .Append("</td><td class=\"num\">").Append(Num(l.FieldX.Size, 0)).Append(" × ").Append(Num(l.FieldY.Size, 0)).Append(" px</td></tr>\n");
+        sb.Append("</tbody></table></section>\n");
     }
 
     private static void Contents(StringBuilder sb, AuditResult r)
     {
-        sb.Append("<nav><a href=\"#reasons\">Reasons</a><a href=\"#coverage\">Scope and cautions</a><a href=\"#attributes\">Attributes</a>")
+        sb.Append("<nav><a href=\"#verdict-band\">Verdict</a><a href=\"#decide\">Cues</a><a href=\"#coverage\">Scope and cautions</a><a href=\"#attributes\">Attributes</a>")
           .Append("<a href=\"#cues\">Cues</a><a href=\"#findings\">Findings (").Append(Int(r.Findings.Count)).Append(")</a>")
           .Append("<a href=\"#candidates\">Fixed-place patterns</a><a href=\"#groups\">Group accuracy</a><a href=\"#problems\">Problems</a>")
-          .Append("<a href=\"#policy\">Policy</a><a href=\"#pass\">Pass</a></nav>\n");
-    }
-
-    private static void Reasons(StringBuilder sb, AuditResult r)
-    {
-        sb.Append("<section id=\"reasons\"><h2>Why ").Append(E(r.Verdict)).Append("</h2>\n");
-        if (r.Reasons.Count == 0)
-        {
-            sb.Append("<p class=\"muted\">No rule of the policy fired.</p></section>\n");
-            return;
-        }
-        sb.Append("<table><thead><tr><th>Reason</th><th>Attribute</th><th>Measure</th><th class=\"num\">Value</th><th class=\"num\">Threshold</th></tr></thead><tbody>\n");
-        foreach (var x in r.Reasons)
-        {
-            sb.Append("<tr><td><span class=\"tag\">").Append(E(x.Kind)).Append("</span> ").Append(E(x.Message)).Append("</td><td>")
-              .Append(x.Attribute is null ? Dash : E(x.Attribute)).Append("</td><td>").Append(x.Measure is null ? Dash : E(x.Measure))
-              .Append("</td><td class=\"num\"><strong>").Append(Num(x.Value)).Append("</strong></td><td class=\"num\">").Append(Num(x.Threshold))
-              .Append("</td></tr>\n");
-        }
-        sb.Append("</tbody></table></section>\n");
+          .Append("<a href=\"#policy\">Policy</a><a href=\"#run\">Activation run</a></nav>\n");
     }
 
     private static void CoverageBlock(StringBuilder sb, Coverage c)

@@ -109,7 +109,7 @@ public static partial class HtmlReport
     {
         sb.Append("<section id=\"problems\"><h2>Intake and pass problems</h2>\n");
         ProblemTable(sb, "Rows skipped at intake", r.ImageSet.Problems);
-        ProblemTable(sb, "Images that failed in the pass", r.Pass.Problems);
+        ProblemTable(sb, "Images that failed in the activation run", r.Pass.Problems);
         sb.Append("</section>\n");
     }
 
@@ -154,7 +154,7 @@ public static partial class HtmlReport
     private static void PassBlock(StringBuilder sb, AuditResult r)
     {
         var p = r.Pass;
-        sb.Append("<section id=\"pass\"><h2>Pass</h2><dl class=\"grid\">")
+        sb.Append("<section id=\"run\"><h2>Activation run</h2><p class=\"muted\">The run of every image through the model that produced the unit scores.</p><dl class=\"grid\">")
           .Append("<dt>Images</dt><dd>").Append(Int(p.Images)).Append(" (").Append(Int(p.Scored)).Append(" scored)")
           .Append("</dd><dt>Throughput</dt><dd>").Append(Num(p.ImagesPerSecond, 1)).Append(" images/s over ").Append(Num(p.Seconds, 1)).Append(" s")
           .Append("</dd><dt>Batch size</dt><dd>").Append(Int(p.BatchSize))

@@ -18,9 +18,17 @@ a { color: var(--accent); }
 .mono { font-family: ui-monospace, "SFMono-Regular", Menlo, Consolas, "DejaVu Sans Mono", monospace; font-size: 12.5px; word-break: break-all; }
 .muted { color: var(--muted); }
 .small { font-size: 12px; }
-.verdict { display: flex; align-items: center; gap: 24px; padding: 20px 32px; color: #fff; }
-.verdict-word { font-size: 56px; font-weight: 800; letter-spacing: .06em; line-height: 1; }
-.verdict-text { font-size: 18px; }
+.verdict { display: flex; align-items: flex-start; gap: 20px; padding: 18px 32px 16px; color: #fff; }
+.verdict-mark { font-size: 40px; line-height: 1; width: 52px; height: 52px; display: flex; align-items: center; justify-content: center;
+  border: 3px solid rgba(255,255,255,.85); flex: none; }
+.verdict-word { font-size: 34px; font-weight: 800; letter-spacing: .12em; line-height: 1.1; }
+.verdict-text { font-size: 15.5px; max-width: 980px; }
+.verdict-text p { margin: 6px 0 0; }
+.verdict-reasons { margin: 6px 0 0; padding-left: 18px; }
+.verdict-reasons li { margin: 3px 0; }
+.verdict details.tech { margin-top: 6px; font-size: 12px; opacity: .9; }
+.verdict details.tech summary { cursor: pointer; }
+.verdict a { color: #fff; }
 .verdict.v-pass { background: var(--pass); }
 .verdict.v-block { background: var(--block); }
 .verdict.v-other, .verdict.v-warn { background: #555; }
@@ -62,7 +70,7 @@ svg.regionmap rect.bg { fill: #faf7f0; }
 svg.regionmap rect.box { fill: none; stroke: #d2691e; stroke-width: 0.6; stroke-dasharray: 1.2 0.6; }
 .tag { display: inline-block; padding: 0 6px; border-radius: 3px; background: #eef1f4; border: 1px solid var(--line); font-size: 12px; }
 .tag.warn { background: var(--warn-bg); color: var(--warn); border-color: #f0d58c; }
-.pill { display: inline-block; padding: 1px 10px; border-radius: 10px; font-weight: 700; font-size: 12px; text-transform: uppercase; }
+.pill { display: inline-block; padding: 0 8px; border: 1.5px solid currentColor; font-weight: 700; font-size: 12px; text-transform: uppercase; }
 .pill.v-pass { background: var(--pass-bg); color: var(--pass); }
 .pill.v-block { background: var(--block-bg); color: var(--block); }
 .pill.v-warn { background: var(--warn-bg); color: var(--warn); }
@@ -101,6 +109,45 @@ svg.regionmap rect.box { fill: none; stroke: #d2691e; stroke-width: 0.6; stroke-
 .peakmap { display: grid; grid-template-columns: repeat(3, 28px); grid-template-rows: repeat(3, 28px); gap: 2px; }
 .peakmap span { display: flex; align-items: center; justify-content: center; font-size: 11px; border-radius: 2px; font-variant-numeric: tabular-nums; }
 .more { font-weight: 600; }
+h2.part { font-size: 13px; text-transform: uppercase; letter-spacing: .12em; color: var(--muted); border-bottom: 3px double var(--line); margin-top: 48px; }
+.cuecard { border: 1px solid var(--line); border-left: 6px solid var(--muted); background: #fff; padding: 10px 16px 12px; margin: 12px 0; page-break-inside: avoid; }
+.cuecard.follows { border-left-color: var(--block); }
+.cuecard.quiet { border-left-color: var(--line); background: var(--soft); padding: 6px 14px; }
+.cuecard.quiet h3 { font-size: 14px; }
+.cc-head { display: flex; flex-wrap: wrap; align-items: baseline; gap: 6px 16px; justify-content: space-between; }
+.cc-head h3 { margin: 2px 0 6px; font-size: 16px; }
+.toward { font-weight: 400; color: var(--muted); font-size: 14px; }
+.toward strong { color: var(--fg); }
+.cc-mark { font-weight: 700; font-size: 12.5px; letter-spacing: .03em; white-space: nowrap; padding: 1px 8px; border: 1.5px solid currentColor; }
+.mark-s { font-weight: 700; font-size: 11.5px; white-space: nowrap; }
+.m-block { color: var(--block); }
+.m-pass { color: var(--pass); }
+.m-info { color: var(--warn); }
+.cc-leak { display: flex; align-items: center; gap: 8px; margin: 2px 0 6px; }
+.cc-leak .k { font-size: 12px; color: var(--muted); }
+ul.plain { margin: 4px 0 8px; padding-left: 18px; }
+ul.plain li { margin: 3px 0; max-width: 980px; }
+ul.plain li.blocks { font-weight: 600; }
+.cc-body { display: flex; flex-wrap: wrap; gap: 16px 28px; align-items: flex-start; }
+.cc-body figure.region { max-width: 150px; }
+.cc-units h4 { margin-top: 0; }
+.unitgrids { display: flex; flex-wrap: wrap; gap: 12px; }
+figure.unitgrid { margin: 0; width: 134px; font-size: 11.5px; line-height: 1.3; }
+.mini { display: grid; grid-template-columns: repeat(3, 42px); gap: 2px; }
+.mini img, .mini .pic, .mini .placeholder { display: block; width: 42px; height: 42px; object-fit: contain; image-rendering: pixelated; border: 1px solid var(--line); background-color: #fafafa; }
+.pic { display: block; background-size: contain; background-repeat: no-repeat; background-position: center; image-rendering: pixelated; }
+.exemplars .pic { width: 96px; height: 96px; border: 1px solid var(--line); background-color: #fafafa; }
+.exemplars.whole .pic { width: 128px; height: 128px; image-rendering: auto; }
+.cc-foot { margin-top: 10px; padding-top: 8px; border-top: 1px dashed var(--line); }
+.plain-none { font-size: 15px; }
+.makeup { display: grid; grid-template-columns: max-content 120px max-content; gap: 4px 8px; align-items: center; font-size: 12.5px; margin-bottom: 8px; }
+.makeup .k { color: var(--muted); }
+.unit-cue { border-top: 1px solid var(--line); margin-top: 16px; }
+.siblings { line-height: 1.9; }
+a.toggle { font-weight: 600; }
+details.glossary { margin: 24px 0; border: 1px solid var(--line); padding: 6px 16px; background: var(--soft); }
+details.glossary summary { cursor: pointer; font-weight: 700; }
+details.glossary dl { margin: 8px 0; grid-template-columns: 11em 1fr; font-size: 13px; }
 footer { max-width: 1200px; margin: 0 auto; padding: 12px 24px 24px; color: var(--muted); font-size: 12px; border-top: 1px solid var(--line); }
 @media (max-width: 800px) { .summary, .cautions .cols { grid-template-columns: 1fr; } }
 @media print { .verdict { -webkit-print-color-adjust: exact; print-color-adjust: exact; } nav { display: none; } }

@@ -7,8 +7,9 @@ public sealed record AuditRow(Guid Id, Guid TeamId, Guid ModelId, Guid ImageSetI
     int ItemsTotal, int ItemsDone, int ChunkSize, int ChunksTotal, int ChunksDone, string Policy,
     string? Verdict, string? Error, DateTime CreatedAt, DateTime? StartedAt, DateTime? FinishedAt);
 
+/// <param name="Search">Text found in the model's or the image set's name, or the start of the audit's id (case-insensitive).</param>
 public sealed record AuditFilter(Guid? ModelId = null, Guid? ImageSetId = null, string? Verdict = null,
-    string? State = null, int Limit = 100);
+    string? State = null, int Limit = 100, string? Search = null);
 
 /// <summary>Audit rows as a team sees them: every read and write is scoped by team id.</summary>
 public sealed class AuditStore(NpgsqlDataSource db)
@@ -92,12 +93,18 @@ public sealed class AuditStore(NpgsqlDataSource db)
               AND (@imageSetId::uuid IS NULL OR image_set_id = @imageSetId)
               AND (@verdict::text IS NULL OR verdict = @verdict)
               AND (@state::text IS NULL OR state = @state)
+              AND (@pattern::text IS NULL
+                   OR EXISTS (SELECT 1 FROM models m WHERE m.id = audits.model_id AND m.name ILIKE @pattern ESCAPE '\')
+                   OR EXISTS (SELECT 1 FROM image_sets s WHERE s.id = audits.image_set_id AND s.name ILIKE @pattern ESCAPE '\')
+                   OR audits.id::text LIKE @idPrefix ESCAPE '\')
             ORDER BY created_at DESC
             LIMIT @limit
             """, new
             {
                 teamId, modelId = filter.ModelId, imageSetId = filter.ImageSetId, verdict = filter.Verdict,
                 state = filter.State, limit = Math.Clamp(filter.Limit, 1, 1000),
+                pattern = filter.Search is { Length: > 0 } q ? "%" + Like(q) + "%" : null,
+                idPrefix = filter.Search is { Length: > 0 } p ? Like(p.ToLowerInvariant()) + "%" : null,
             },
             cancellationToken: ct))).ToList();
     }
@@ -115,4 +122,8 @@ public sealed class AuditStore(NpgsqlDataSource db)
             $"SELECT {Columns} FROM audits WHERE id = @id AND team_id = @teamId",
             new { id, teamId }, cancellationToken: ct));
     }
+
+    // The search is text, never a pattern: LIKE's wildcards in it match themselves.
+    private static string Like(string text) =>
+        text.Replace("\\", "\\\\", StringComparison.Ordinal).Replace("%", "\\%", StringComparison.Ordinal).Replace("_", "\\_", StringComparison.Ordinal);
 }

@@ -13,69 +13,90 @@ namespace AuditSvc.Api.Tests.Ui;
 /// audit page sits behind a sign-in, which the command-line flags cannot do, so the test signs in over HTTP as a
 /// browser would, puts that session cookie into Chromium through the DevTools protocol (Network.setCookie), and
 /// navigates there: no test-only endpoint, the page is served exactly as to a reviewer.
-/// Set AUDITSVC_UI_SCREENSHOT to a .png path to keep the audit page's screenshots.
+/// Screenshots of the list, audit, unit and report pages are kept (see <see cref="Screenshots"/>).
 /// </summary>
 public sealed class BrowserTests(ITestOutputHelper output)
 {
     [PgFact]
-    public async Task Pages_InHeadlessChromium_RenderLoginFormAndSignedInAuditPage()
+    public async Task ReviewerDesk_InHeadlessChromium_FromListToSignedDecision()
     {
         if (!Chromium.Available(output)) return;
         await using var svc = await ServiceUnderTest.StartAsync(workers: 1, realEngine: true);
         var id = await DemoAuditAsync(svc);
         var (key, info) = await BrowserSession.KeyAsync(svc, "team-a", "rita");
-        using var session = new BrowserSession(svc);
-        (await session.LoginAsync(key)).Dispose();
-        var token = BrowserSession.TokenIn(await session.GetPageAsync($"/ui/audits/{id}"));
-        using (var review = await session.PostFormAsync($"/ui/audits/{id}/reviews", ("__af", token), ("cue", "stamp=yes"), ("decision", "spurious"),
-            ("comment", "corner stamp, not fruit")))
-            Assert.Equal(HttpStatusCode.SeeOther, review.StatusCode);
-        var shots = Directory.CreateTempSubdirectory("auditsvc-shots-").FullName;
+        var shots = Screenshots();
 
         var loginDom = await Chromium.RunAsync("--dump-dom", new Uri(svc.Address, "/ui/login").ToString());
-        var loginPng = Path.Combine(shots, "login.png");
-        await Chromium.RunAsync($"--screenshot={loginPng}", new Uri(svc.Address, "/ui/login").ToString());
-
         Assert.Contains("<form method=\"post\" action=\"/ui/login\" id=\"login\">", loginDom, StringComparison.Ordinal);
-        Assert.Contains("name=\"key\"", loginDom, StringComparison.Ordinal);
         Assert.Contains("name=\"__af\"", loginDom, StringComparison.Ordinal);
-        AssertPng(await File.ReadAllBytesAsync(loginPng));
 
         await using var tools = await DevTools.StartAsync();
-        await tools.SendAsync("Network.setCookie", new
-        {
-            name = session.Session!.Name, value = session.Session.Value, url = svc.Address.ToString(), httpOnly = true, sameSite = "Strict",
-        });
         await tools.SendAsync("Page.enable");
-        await tools.NavigateAsync(new Uri(svc.Address, $"/ui/audits/{id}"));
-        var dom = await tools.EvaluateAsync("document.documentElement.outerHTML");
-        var images = await tools.EvaluateAsync("String(document.querySelectorAll('#report img').length)");
-        var broken = await tools.EvaluateAsync("String(Array.from(document.images).filter(i => !i.complete || i.naturalWidth === 0).length)");
-        var reviewTop = await tools.EvaluateAsync("String(Math.floor(document.getElementById('review').getBoundingClientRect().top + window.scrollY))");
-        var top = await tools.ScreenshotAsync(0, 1400);
-        var panel = await tools.ScreenshotAsync(double.Parse(reviewTop, System.Globalization.CultureInfo.InvariantCulture), 1200);
-        await File.WriteAllBytesAsync(Path.Combine(shots, "audit.png"), top);
-        await File.WriteAllBytesAsync(Path.Combine(shots, "audit-review.png"), panel);
-        if (Environment.GetEnvironmentVariable("AUDITSVC_UI_SCREENSHOT") is { Length: > 0 } keep)
-        {
-            await File.WriteAllBytesAsync(keep, top);
-            await File.WriteAllBytesAsync(Path.ChangeExtension(keep, null) + "-review.png", panel);
-        }
-        Chromium.TryDelete(shots);
+        await tools.ViewportAsync(1366, 768);
+        // Sign in through the login form, as a reviewer does.
+        await tools.NavigateAsync(new Uri(svc.Address, "/ui/login"));
+        await tools.FollowAsync($"document.querySelector('input[name=key]').value = '{key}'; document.getElementById('login').submit();");
 
-        Assert.DoesNotContain("id=\"login\"", dom, StringComparison.Ordinal);
-        Assert.Contains("id=\"page-verdict\"", dom, StringComparison.Ordinal);
-        Assert.Contains("id=\"verdict\"", dom, StringComparison.Ordinal); // the report's own banner, embedded
-        Assert.Contains("id=\"review\"", dom, StringComparison.Ordinal);
-        Assert.Contains($"rita ({info.Prefix})", dom, StringComparison.Ordinal);
-        Assert.Contains("corner stamp, not fruit", dom, StringComparison.Ordinal);
-        Assert.Contains("exemplars in the report ↑", dom, StringComparison.Ordinal);
-        Assert.Equal("0", await tools.EvaluateAsync( // every panel link to a finding lands on an article of the report
-            "String(Array.from(document.querySelectorAll('#review a[href^=\\'#f-\\']')).filter(a => !document.getElementById(a.getAttribute('href').slice(1))).length)"));
-        Assert.True(int.Parse(images, System.Globalization.CultureInfo.InvariantCulture) > 0, "no exemplar crops in the report");
-        Assert.Equal("0", broken);
-        AssertPng(top);
-        AssertPng(panel);
+        // The list: names, not ids; then the audit by its link.
+        Assert.Contains("fruit demo (invented)", await tools.EvaluateAsync("document.getElementById('audits').innerText"), StringComparison.Ordinal);
+        await Save(tools, shots, "list.png", 768);
+        await tools.FollowAsync($"document.querySelector('#audits a[href=\"/ui/audits/{id}\"]').click()");
+
+        // The verdict once, with a plain sentence per reason; the stamp's card with its region map, exemplars and review control.
+        var band = await tools.EvaluateAsync("document.getElementById('verdict-band').innerText");
+        Assert.Contains("BLOCK", band, StringComparison.Ordinal);
+        Assert.Contains("The model's decisions follow stamp", band, StringComparison.Ordinal);
+        Assert.Equal("1", await tools.EvaluateAsync("String(document.querySelectorAll('.verdict-word').length)"));
+        Assert.Equal("true", await tools.EvaluateAsync("String(!!document.querySelector('#cue-stamp-yes svg.regionmap'))"));
+        Assert.NotEqual("0", await tools.EvaluateAsync("String(document.querySelectorAll('#cue-stamp-yes .mini img').length)"));
+        // Every picture on the first card loads (they are cut on request, then cached by the browser).
+        Assert.Equal("0", await tools.EvaluateAsync(
+            "Promise.all(Array.from(document.querySelectorAll('#decide .cuecard:first-of-type img')).map(i => { i.loading = 'eager'; return i.decode().then(() => 0, () => 1); })).then(r => String(r.reduce((a, b) => a + b, 0)))"));
+        // The first card's review control is reachable without scrolling past that card.
+        var cardBottom = double.Parse(await tools.EvaluateAsync("String(document.querySelector('#decide .cuecard').getBoundingClientRect().bottom + window.scrollY)"), Inv);
+        var formTop = double.Parse(await tools.EvaluateAsync("String(document.querySelector('#decide .cuecard form.decide').getBoundingClientRect().top + window.scrollY)"), Inv);
+        Assert.True(formTop < cardBottom, "the review control is not on the first card");
+        await Save(tools, shots, "audit.png", 768);
+        await Save(tools, shots, "audit-first-card.png", Math.Min(cardBottom + 16, 2400));
+
+        // A decision recorded on the card: confirmation on the card, the signer from the session, the history entry.
+        await tools.FollowAsync("document.getElementById('cue-stamp-yes-spurious').click(); " +
+            "document.querySelector('#cue-stamp-yes textarea').value = 'corner stamp <b>not</b> fruit'; document.querySelector('#cue-stamp-yes form.decide').submit();");
+        var confirm = await tools.EvaluateAsync("document.querySelector('#cue-stamp-yes .confirm')?.innerText ?? ''");
+        Assert.Contains("Recorded: Spurious", confirm, StringComparison.Ordinal);
+        Assert.Contains($"rita ({info.Prefix})", confirm, StringComparison.Ordinal);
+        var history = await tools.EvaluateAsync("document.getElementById('history').innerText");
+        Assert.Contains("stamp=yes", history, StringComparison.Ordinal);
+        Assert.Contains("corner stamp <b>not</b> fruit", history, StringComparison.Ordinal); // shown as text, never markup
+        Assert.Equal("0", await tools.EvaluateAsync("String(document.querySelectorAll('#history b').length)"));
+
+        // A unit page from the card: its 3×3 grid, the toggle to whole images, the interventions on its cue.
+        await tools.FollowAsync("document.querySelector('#cue-stamp-yes .unitgrid a').click()");
+        Assert.Equal("9", await tools.EvaluateAsync("String(document.querySelectorAll('.unit-cue .exemplars img').length)"));
+        Assert.Contains("What moving stamp = yes did", await tools.EvaluateAsync("document.body.innerText"), StringComparison.Ordinal);
+        await Save(tools, shots, "unit.png", 768);
+        await tools.FollowAsync("document.querySelector('a.toggle').click()");
+        Assert.Equal("9", await tools.EvaluateAsync("String(document.querySelectorAll('.unit-cue .exemplars.whole img').length)"));
+
+        // The full report, self-contained, its pictures embedded once each.
+        await tools.NavigateAsync(new Uri(svc.Address, $"/ui/audits/{id}/report"));
+        Assert.Equal("0", await tools.EvaluateAsync("String(document.querySelectorAll('img[src^=\"http\"]').length)"));
+        await Save(tools, shots, "report.png", 768);
+        output.WriteLine($"screenshots: {shots}");
+    }
+
+    private static readonly System.Globalization.CultureInfo Inv = System.Globalization.CultureInfo.InvariantCulture;
+
+    /// <summary>Screenshots are kept as test artifacts: under AUDITSVC_UI_SCREENSHOTS when set, else artifacts/ui in the repository.</summary>
+    private static string Screenshots() =>
+        Directory.CreateDirectory(Environment.GetEnvironmentVariable("AUDITSVC_UI_SCREENSHOTS") is { Length: > 0 } dir
+            ? dir : Path.Combine(RepoRoot(), "artifacts", "ui")).FullName;
+
+    private static async Task Save(DevTools tools, string folder, string name, double height)
+    {
+        var png = await tools.ScreenshotAsync(0, height);
+        AssertPng(png);
+        await File.WriteAllBytesAsync(Path.Combine(folder, name), png);
     }
 
     private static void AssertPng(byte[] bytes) =>

@@ -96,7 +96,19 @@ internal sealed class DevTools : IAsyncDisposable
     }
 
     public async Task<string> EvaluateAsync(string expression) =>
-        (await SendAsync("Runtime.evaluate", new { expression, returnByValue = true })).GetProperty("result").GetProperty("value").ToString();
+        (await SendAsync("Runtime.evaluate", new { expression, returnByValue = true, awaitPromise = true })).GetProperty("result").GetProperty("value").ToString();
+
+    /// <summary>Runs a script that leads to a new page (a click, a form submission) and waits for that page's load event.</summary>
+    public async Task FollowAsync(string script)
+    {
+        _events.RemoveAll(e => e.GetProperty("method").GetString() == "Page.loadEventFired");
+        await SendAsync("Runtime.evaluate", new { expression = script });
+        await WaitForEventAsync("Page.loadEventFired");
+    }
+
+    /// <summary>The window a reviewer's laptop shows (CSS pixels).</summary>
+    public Task ViewportAsync(int width, int height) =>
+        SendAsync("Emulation.setDeviceMetricsOverride", new { width, height, deviceScaleFactor = 1, mobile = false });
 
     /// <summary>A PNG of the page region starting at <paramref name="top"/> (CSS pixels), the page's full width.</summary>
     public async Task<byte[]> ScreenshotAsync(double top, double height)

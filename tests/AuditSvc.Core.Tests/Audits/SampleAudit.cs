@@ -68,7 +68,7 @@ internal static class SampleAudit
             Pass: new PassSummary(1200, 1198, 1024, 24, 41.3, 29.0, 32, [new ProblemRow(77, "images/odd.png", "truncated file")], 6.2, 300),
             Attributes: attributes,
             Findings: list,
-            CueGroups: [new CueGroup("stamp", "yes", findings, ["layer3/conv2", "layer4/conv1"], 0.97, "top-right", ["layer3/conv2/10", "layer4/conv1/11"])],
+            CueGroups: [new CueGroup("stamp", "yes", findings, ["layer3/conv2", "layer4/conv1"], 0.97, "top-right", ["layer3/conv2#10", "layer4/conv1#11"])],
             Candidates:
             [
                 new PlaceCandidate("place:bottom-left", "place:bottom-left", "layer3/conv2", 77, "bottom-left", 0.81, 3, ["layer3/conv2#77", "layer4/conv1#3"], 2.5, 0.71, 140, exemplars.Take(4).ToList(), null),
