@@ -112,10 +112,9 @@ internal static class ReviewPanel
             return Message(http, 404, "Audit not found", $"No audit {id} for this team.", "/ui/audits");
         if (ReviewRules.From(added, review) is { } refused)
             return Message(http, refused.Status, "Review not recorded", $"{refused.Field}: {refused.Message}.", back);
-        var anchor = finding is { } o ? $"rv-f-{o}"
-            : cue is not null && CueGroups(findings).FirstOrDefault(g => g.Key == cue) is { } group ? $"rv-cue-{group.Index}"
-            : "review";
-        return SeeOther($"{back}#{anchor}");
+        // Back to the audit page, which confirms the review it names on the cue's card (or in the history).
+        var anchor = cue is not null ? HtmlReport.CardAnchor(cue) : "history";
+        return SeeOther($"{back}?recorded={added.Review!.Id}#{anchor}");
     }
 
     private static string? Field(Microsoft.Extensions.Primitives.StringValues v) => v.ToString() is { Length: > 0 } s ? s : null;

@@ -18,7 +18,7 @@ public sealed class ReviewFormTests
         var (key, info) = await BrowserSession.KeyAsync(svc, "team-a", "rita");
         using var browser = new BrowserSession(svc);
         (await browser.LoginAsync(key)).Dispose();
-        var token = BrowserSession.TokenIn(await browser.GetPageAsync($"/ui/audits/{id}"));
+        var token = BrowserSession.TokenIn(await browser.GetPageAsync("/ui/audits")); // the form's rules, not the page's drawing
 
         using var forged = await browser.PostFormAsync($"/ui/audits/{id}/reviews",
             ("__af", token), ("cue", "stamp=yes"), ("decision", "spurious"), ("reviewer", "the head of quality"), ("reason", "corner stamp"));
@@ -29,6 +29,8 @@ public sealed class ReviewFormTests
             ("__af", token), ("decision", "override"), ("verdict", "block"), ("reason", "stamp seen on the line"));
 
         Assert.Equal(HttpStatusCode.SeeOther, forged.StatusCode);
+        Assert.StartsWith($"/ui/audits/{id}?recorded=", forged.Headers.Location!.OriginalString, StringComparison.Ordinal);
+        Assert.EndsWith("#cue-stamp-yes", forged.Headers.Location!.OriginalString, StringComparison.Ordinal);
         Assert.Equal((HttpStatusCode.BadRequest, HttpStatusCode.UnprocessableEntity, HttpStatusCode.UnprocessableEntity),
             (oldWord.StatusCode, noReason.StatusCode, unknownCue.StatusCode));
         Assert.Contains("reason", await noReason.Content.ReadAsStringAsync(), StringComparison.Ordinal);
