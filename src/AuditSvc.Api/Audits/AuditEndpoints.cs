@@ -30,7 +30,9 @@ public static class AuditEndpoints
         group.MapGet("/{id:guid}", Get).WithSummary("State and progress (images done/total, rate, ETA).");
         group.MapGet("/{id:guid}/result", Result).WithSummary("audit.json, the same document the command line writes.")
             .Produces(200, contentType: "application/json");
-        group.MapGet("/{id:guid}/verdict", Verdict).WithSummary("pass or block; 409 while the audit is not done.");
+        group.MapGet("/{id:guid}/verdict", Verdict)
+            .WithSummary("The verdict that stands (a signed override's, else the engine's), the engine's verdict and the override; 409 while the audit is not done.")
+            .Produces<VerdictResponse>().ProducesProblem(404).ProducesProblem(409);
         group.MapPost("/{id:guid}/cancel", Cancel);
         return api;
     }
@@ -81,14 +83,17 @@ public static class AuditEndpoints
         return await audits.GetAsync(team, id, ct) is { } a ? NotDone(a) : NotFound(id);
     }
 
-    private static async Task<IResult> Verdict(Guid id, HttpContext http, AuditStore audits, CancellationToken ct)
+    private static async Task<IResult> Verdict(Guid id, HttpContext http, AuditStore audits, ReviewStore reviews, CancellationToken ct)
     {
         var team = http.User.TeamId();
         var a = await audits.GetAsync(team, id, ct);
         if (a is null) return NotFound(id);
         if (a.State != "done" || a.Verdict is null) return NotDone(a);
         var scores = await audits.ScoresAsync(team, id, ct);
-        return TypedResults.Ok(new VerdictResponse(id, a.Verdict, scores.Select(s => new AttributeVerdict(s.Attribute, s.Leakage, s.Verdict)).ToList()));
+        var effective = await reviews.EffectiveVerdictAsync(team, id, ct);
+        var overridden = VerdictOverride.From(effective?.Override);
+        return TypedResults.Ok(new VerdictResponse(id, overridden?.Verdict ?? a.Verdict, a.Verdict, overridden,
+            scores.Select(s => new AttributeVerdict(s.Attribute, s.Leakage, s.Verdict)).ToList()));
     }
 
     private static async Task<IResult> Cancel(Guid id, HttpContext http, AuditStore audits, CancellationToken ct)

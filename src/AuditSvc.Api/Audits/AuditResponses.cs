@@ -30,5 +30,19 @@ public sealed record AuditResponse(Guid Id, Guid ModelId, Guid ImageSetId, strin
 
 public sealed record AttributeVerdict(string Attribute, double Leakage, string Verdict);
 
-/// <summary>The release question: pass or block, with the attributes behind it.</summary>
-public sealed record VerdictResponse(Guid AuditId, string Verdict, IReadOnlyList<AttributeVerdict> Attributes);
+/// <summary>A signed override of the engine's verdict: the verdict it sets, why, by which key and when.</summary>
+public sealed record VerdictOverride(Guid ReviewId, string Verdict, string Reason, string Reviewer, SignerResponse? Signer, DateTime CreatedAt)
+{
+    public static VerdictOverride? From(ReviewRow? r) => r?.Verdict is not { } v ? null
+        : new VerdictOverride(r.Id, v, r.Note, r.Reviewer, SignerResponse.From(r.Signer), r.CreatedAt);
+}
+
+/// <summary>
+/// The release question: the verdict that stands (<see cref="Verdict"/>: the latest override's when one was signed,
+/// else the engine's), the engine's own verdict, the override if any, and the attributes behind the engine's verdict.
+/// </summary>
+public sealed record VerdictResponse(Guid AuditId, string Verdict, string EngineVerdict, VerdictOverride? Override,
+    IReadOnlyList<AttributeVerdict> Attributes)
+{
+    public bool Overridden => Override is not null;
+}

@@ -13,10 +13,6 @@ namespace AuditSvc.Api.Audits;
 public sealed record FindingResponse(int Ordinal, string Layer, int Unit, string Attribute, string Value,
     double? OddsRatio, double? QValue, string? Region, JsonElement Detail);
 
-/// <summary>A reviewer's decision on an audit, or on one of its findings (by ordinal).</summary>
-/// <summary>A review: of one finding (its ordinal), of one cue group (`attribute=value`), or of the audit as a whole.</summary>
-public sealed record AddReview(int? Finding, string? Reviewer, string? Decision, string? Note, string? Cue = null);
-
 public static class ReviewEndpoints
 {
     public static RouteGroupBuilder MapReviews(this RouteGroupBuilder api)
@@ -25,8 +21,11 @@ public static class ReviewEndpoints
         group.MapGet("/findings", Findings).WithSummary("The audit's findings, in the order of audit.json.");
         group.MapGet("/report", Report).WithSummary("The browser report (HTML) of a finished audit, with exemplar crops.")
             .Produces(200, contentType: "text/html");
-        group.MapGet("/reviews", List);
-        group.MapPost("/reviews", Add).WithSummary("Record a reviewer's decision: confirmed, dismissed or note.").ProducesValidationProblem();
+        group.MapGet("/reviews", List).WithSummary("The audit's review history, oldest first: who decided what, when, and superseded by whom.")
+            .Produces<List<ReviewResponse>>().ProducesProblem(404);
+        group.MapPost("/reviews", Add)
+            .WithSummary("Record a decision signed by the calling key: spurious, acceptable (with a reason) or needs-data on a finding or cue; override (verdict and reason) on the audit.")
+            .Produces<ReviewResponse>(201).ProducesValidationProblem().ProducesValidationProblem(422).ProducesProblem(404).ProducesProblem(409);
         return api;
     }
 
@@ -55,21 +54,24 @@ public static class ReviewEndpoints
     }
 
     private static async Task<IResult> List(Guid id, HttpContext http, ReviewStore reviews, CancellationToken ct) =>
-        await reviews.ListAsync(http.User.TeamId(), id, ct) is { } rows ? TypedResults.Ok(rows) : NotFound(id);
+        await reviews.HistoryAsync(http.User.TeamId(), id, ct) is { } rows
+            ? TypedResults.Ok(rows.Select(ReviewResponse.From).ToList())
+            : NotFound(id);
 
     private static async Task<IResult> Add(Guid id, AddReview body, HttpContext http, ReviewStore reviews, CancellationToken ct)
     {
-        if (string.IsNullOrWhiteSpace(body.Reviewer) || body.Reviewer.Length > 200) return ProblemHandling.Field("reviewer", "is required (at most 200 characters)");
-        if (body.Decision is null || !ReviewDecisions.All.Contains(body.Decision))
-            return ProblemHandling.Field("decision", $"must be one of {string.Join(", ", ReviewDecisions.All)}");
-        if (body.Note is { Length: > 10_000 }) return ProblemHandling.Field("note", "longer than 10000 characters");
-        if (body.Finding is < 0) return ProblemHandling.Field("finding", "must be a finding's ordinal (0 or more)");
-        if (body.Cue is { } cue && (cue.Length > 400 || cue.IndexOf('=', StringComparison.Ordinal) <= 0))
-            return ProblemHandling.Field("cue", "must be attribute=value (at most 400 characters)");
-        if (body.Cue is not null && body.Finding is not null) return ProblemHandling.Field("cue", "give a finding or a cue, not both");
-        var row = await reviews.AddAsync(http.User.TeamId(), id, new NewReview(body.Finding, body.Cue, body.Reviewer, body.Decision, body.Note ?? ""), ct);
-        return row is null ? NotFound(id) : TypedResults.Created($"/api/audits/{id}/reviews", row);
+        var reason = body.Reason ?? body.Note ?? "";
+        if (ReviewRules.Check(body.Finding, body.Cue, body.Decision, body.Verdict, reason) is { } bad) return Problem(bad);
+        var review = new NewReview(http.User.KeyId(), body.Finding, body.Cue, body.Verdict, body.Decision!, reason.Trim());
+        var added = await reviews.AddAsync(http.User.TeamId(), id, review, ct);
+        if (added.Refusal == ReviewRefusal.AuditNotFound) return NotFound(id);
+        if (ReviewRules.From(added, review) is { } refused) return Problem(refused);
+        return TypedResults.Created($"/api/audits/{id}/reviews", ReviewResponse.From(added.Review!, null));
     }
+
+    private static IResult Problem(ReviewProblem p) =>
+        Results.ValidationProblem(new Dictionary<string, string[]> { [p.Field] = [p.Message] }, statusCode: p.Status,
+            title: $"{p.Field}: {p.Message}", extensions: new Dictionary<string, object?> { ["field"] = p.Field });
 
     private static IResult NotFound(Guid id) => ProblemHandling.AuditNotFound(id);
 }

@@ -59,4 +59,11 @@ public static class ApiKeyAuthExtensions
         Guid.Parse(user.FindFirstValue(ApiKeyHandler.TeamIdClaim) ?? throw new InvalidOperationException("no team on this request"));
 
     public static string? TeamName(this ClaimsPrincipal user) => user.FindFirstValue(ApiKeyHandler.TeamNameClaim);
+
+    /// <summary>
+    /// The API key behind the request: the Bearer key, or the key the browser session was opened with. Reviews are
+    /// signed with it; nothing in a request body can name someone else.
+    /// </summary>
+    public static Guid KeyId(this ClaimsPrincipal user) =>
+        Guid.Parse(user.FindFirstValue(ClaimTypes.NameIdentifier) ?? throw new InvalidOperationException("no API key on this request"));
 }

@@ -1,3 +1,4 @@
+using System.Globalization;
 using System.Net;
 using System.Net.Http.Headers;
 using System.Net.Http.Json;
@@ -10,6 +11,29 @@ namespace AuditSvc.Api.Gate;
 
 /// <summary>What the release gate learned: the verdict when the audit is done, else its state.</summary>
 public sealed record GateAnswer(string State, VerdictResponse? Verdict, string? Detail);
+
+/// <summary>What `auditsvc gate` prints for a verdict: the verdict that stands, and, when a reviewer overrode the
+/// engine, the engine's verdict beside it with the override's signer, time and reason.</summary>
+public static class GateReport
+{
+    public static IReadOnlyList<string> Lines(VerdictResponse v)
+    {
+        ArgumentNullException.ThrowIfNull(v);
+        var lines = new List<string>();
+        if (v.Override is { } o)
+        {
+            lines.Add($"verdict: {v.Verdict} (overridden; engine verdict: {v.EngineVerdict})");
+            lines.Add($"  override by {Plain(o.Reviewer)} at {o.CreatedAt.ToUniversalTime():yyyy-MM-dd HH:mm:ss}Z: {Plain(o.Reason)}");
+        }
+        else lines.Add($"verdict: {v.Verdict}");
+        foreach (var a in v.Attributes)
+            lines.Add(string.Create(CultureInfo.InvariantCulture, $"  {Plain(a.Attribute)}: leakage {a.Leakage:0.###} ({a.Verdict})"));
+        return lines;
+    }
+
+    // Reasons and names are user text: no control characters (terminal escapes, line breaks) reach the pipeline's log.
+    private static string Plain(string s) => string.Concat(s.Select(c => char.IsControl(c) ? ' ' : c));
+}
 
 /// <summary>
 /// The release gate's side of the REST contract: asks an audit's verdict, optionally waiting while it runs.

@@ -1,5 +1,6 @@
 using System.Globalization;
 using System.Text;
+using AuditSvc.Api.Audits;
 using AuditSvc.Api.Auth;
 using AuditSvc.Core.Reporting;
 using AuditSvc.Data.Audits;
@@ -17,11 +18,12 @@ internal static class ReviewPanel
 {
     private const int MaxComment = 10_000;
 
+    // The one review vocabulary (ReviewDecisions), as the pages word it; an override is made on the verdict, not here.
     private static readonly Dictionary<string, string> Labels = new(StringComparer.Ordinal)
     {
-        ["spurious-cue"] = "spurious cue",
-        ["acceptable"] = "acceptable",
-        ["needs-more-data"] = "needs more data",
+        [ReviewDecisions.Spurious] = "spurious (must not be used)",
+        [ReviewDecisions.Acceptable] = "acceptable (part of the object; give the reason)",
+        [ReviewDecisions.NeedsData] = "needs data",
     };
 
     /// <summary>A cue group: the findings' distinct attribute=value, in the order the findings first name them.</summary>
@@ -75,6 +77,11 @@ internal static class ReviewPanel
         sb.Append("</section>\n");
     }
 
+    /// <summary>
+    /// The form's review, signed by the session's key: a decision on one cue (<c>cue</c>) or one finding (<c>finding</c>),
+    /// or an override (<c>decision=override</c>, <c>verdict</c>); the reason comes as <c>reason</c> or <c>comment</c>.
+    /// Checked by the same rules as the REST API; a refusal says which field and why.
+    /// </summary>
     public static async Task<IResult> PostAsync(Guid id, HttpContext http, ReviewStore store, CancellationToken ct)
     {
         var form = await PageForms.ReadValidAsync(http);
@@ -84,35 +91,33 @@ internal static class ReviewPanel
         if (await store.FindingsAsync(team, id, ct) is not { } findings)
             return Message(http, 404, "Audit not found", $"No audit {id} for this team.", "/ui/audits");
 
+        var cue = Field(form["cue"]);
+        var findingText = Field(form["finding"]);
+        int? finding = null;
+        if (findingText is not null)
+        {
+            if (!int.TryParse(findingText, NumberStyles.None, CultureInfo.InvariantCulture, out var ordinal))
+                return Message(http, 400, "Review not recorded", "finding must be a finding's ordinal.", back);
+            finding = ordinal;
+        }
+        var reason = (Field(form["reason"]) ?? Field(form["comment"]) ?? "").Trim();
         var decision = form["decision"].ToString();
-        if (!Labels.ContainsKey(decision))
-            return Message(http, 400, "Review not recorded", "decision must be spurious-cue, acceptable or needs-more-data.", back);
-        var comment = form["comment"].ToString().Trim();
-        if (comment.Length > MaxComment)
-            return Message(http, 400, "Review not recorded", $"comment is longer than {MaxComment} characters.", back);
+        var verdict = Field(form["verdict"]);
+        if (ReviewRules.Check(finding, cue, decision, verdict, reason) is { } bad)
+            return Message(http, bad.Status, "Review not recorded", $"{bad.Field}: {bad.Message}.", back);
 
-        var cue = form["cue"].ToString();
-        var findingText = form["finding"].ToString();
-        string anchor;
-        NewReview review;
-        var reviewer = ReviewerCookie.Reviewer(http.User);
-        if (cue.Length > 0 && findingText.Length == 0 && CueGroups(findings).FirstOrDefault(g => g.Key == cue) is { } group)
-        {
-            review = new NewReview(null, group.Key, reviewer, decision, comment);
-            anchor = $"rv-cue-{group.Index}";
-        }
-        else if (cue.Length == 0 && int.TryParse(findingText, NumberStyles.None, CultureInfo.InvariantCulture, out var ordinal)
-                 && findings.Any(f => f.Ordinal == ordinal))
-        {
-            review = new NewReview(ordinal, null, reviewer, decision, comment);
-            anchor = $"rv-f-{ordinal}";
-        }
-        else return Message(http, 400, "Review not recorded", "the form must name one cue or one finding of this audit.", back);
-
-        if (await store.AddAsync(team, id, review, ct) is null)
+        var review = new NewReview(http.User.KeyId(), finding, cue, verdict, decision, reason);
+        var added = await store.AddAsync(team, id, review, ct);
+        if (added.Refusal == ReviewRefusal.AuditNotFound)
             return Message(http, 404, "Audit not found", $"No audit {id} for this team.", "/ui/audits");
-        return SeeOther($"{back}#{anchor}");
+        if (ReviewRules.From(added, review) is { } refused)
+            return Message(http, refused.Status, "Review not recorded", $"{refused.Field}: {refused.Message}.", back);
+        // Back to the audit page, which confirms the review it names on the cue's card (or in the history).
+        var anchor = cue is not null ? HtmlReport.CardAnchor(cue) : "history";
+        return SeeOther($"{back}?recorded={added.Review!.Id}#{anchor}");
     }
+
+    private static string? Field(Microsoft.Extensions.Primitives.StringValues v) => v.ToString() is { Length: > 0 } s ? s : null;
 
     private static string Key(string attribute, string value) => $"{attribute}={value}";
 

@@ -4,7 +4,10 @@ using AuditSvc.Core;
 
 namespace AuditSvc.Cli.Commands;
 
-/// <summary>`auditsvc gate --server URL --audit ID`: prints the verdict; exit 0 pass, 1 block, 2 usage, 4 not decided (3 stays an internal error).</summary>
+/// <summary>
+/// `auditsvc gate --server URL --audit ID`: prints the verdict that stands (and the engine's beside it when a reviewer
+/// overrode it); exit 0 pass, 1 block, 2 usage, 4 not decided (3 stays an internal error).
+/// </summary>
 internal static class GateCommand
 {
     public const int NotDecided = 4;
@@ -31,8 +34,8 @@ internal static class GateCommand
                 Console.Error.WriteLine($"audit {parse.GetValue(audit)} is {answer.State}{(answer.Detail is null ? "" : $": {answer.Detail}")}; no verdict");
                 return NotDecided;
             }
-            Console.WriteLine($"verdict: {v.Verdict}");
-            foreach (var a in v.Attributes) Console.WriteLine($"  {a.Attribute}: leakage {a.Leakage:0.###} ({a.Verdict})");
+            foreach (var line in GateReport.Lines(v)) Console.WriteLine(line);
+            // The exit status follows the verdict that stands: a signed override with its reason is a release decision.
             return v.Verdict == "pass" ? ExitCodes.Pass : ExitCodes.Block;
         });
         return cmd;

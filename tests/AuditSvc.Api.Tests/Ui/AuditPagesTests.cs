@@ -22,23 +22,24 @@ public sealed class AuditPagesTests
         var token = BrowserSession.TokenIn(page);
 
         using var onFinding = await browser.PostFormAsync($"/ui/audits/{id}/reviews",
-            ("__af", token), ("finding", "0"), ("decision", "spurious-cue"), ("comment", "stamp <b>in</b> the corner"));
+            ("__af", token), ("finding", "0"), ("decision", "spurious"), ("comment", "stamp <b>in</b> the corner"));
         using var onCue = await browser.PostFormAsync($"/ui/audits/{id}/reviews",
-            ("__af", token), ("cue", "stamp=yes"), ("decision", "needs-more-data"), ("comment", ""));
+            ("__af", token), ("cue", "stamp=yes"), ("decision", "needs-data"), ("comment", ""));
 
         Assert.Equal(HttpStatusCode.SeeOther, onFinding.StatusCode);
-        Assert.Equal($"/ui/audits/{id}#rv-f-0", onFinding.Headers.Location!.OriginalString);
-        Assert.Equal($"/ui/audits/{id}#rv-cue-0", onCue.Headers.Location!.OriginalString);
         var after = await browser.GetPageAsync($"/ui/audits/{id}");
         Assert.Contains($"rita ({info.Prefix})", after, StringComparison.Ordinal);
         Assert.Contains("stamp &lt;b&gt;in&lt;/b&gt; the corner", after, StringComparison.Ordinal); // escaped, never markup
         Assert.DoesNotContain("<b>in</b>", after, StringComparison.Ordinal);
-        Assert.Contains("needs more data", after, StringComparison.Ordinal);
+        Assert.Contains("Needs data", after, StringComparison.Ordinal);
         var listed = await api.GetFromJsonAsync<JsonElement>($"/api/audits/{id}/reviews");
         Assert.Equal(2, listed.GetArrayLength());
-        Assert.Equal(("spurious-cue", 0, $"rita ({info.Prefix})"),
+        Assert.Equal(("spurious", 0, $"rita ({info.Prefix})"),
             (listed[0].GetProperty("decision").GetString(), listed[0].GetProperty("finding").GetInt32(), listed[0].GetProperty("reviewer").GetString()));
-        Assert.Equal(("needs-more-data", "stamp=yes"), (listed[1].GetProperty("decision").GetString(), listed[1].GetProperty("cue").GetString()));
+        Assert.Equal(("needs-data", "stamp=yes"), (listed[1].GetProperty("decision").GetString(), listed[1].GetProperty("cue").GetString()));
+        // Back to the page naming the review just recorded, at its cue's card (or the history for a finding).
+        Assert.Equal($"/ui/audits/{id}?recorded={listed[0].GetProperty("id").GetGuid()}#history", onFinding.Headers.Location!.OriginalString);
+        Assert.Equal($"/ui/audits/{id}?recorded={listed[1].GetProperty("id").GetGuid()}#cue-stamp-yes", onCue.Headers.Location!.OriginalString);
     }
 
     [PgFact]
