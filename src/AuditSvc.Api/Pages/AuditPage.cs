@@ -61,19 +61,48 @@ internal static class AuditPage
         sb.Append("</div>\n");
 
         var recorded = await reviews.ListAsync(team, id, ct) ?? [];
+        var history = await reviews.HistoryAsync(team, id, ct) ?? [];
+        var effective = await reviews.EffectiveVerdictAsync(team, id, ct);
         Guid? just = Guid.TryParse(http.Request.Query["recorded"], out var r) ? r : null;
         var token = PageForms.TokenField(http);
-        var view = new ReportView
+        if (effective?.Override is { } overridden) CueReview.OverrideNotice(sb, overridden, a.Verdict, just);
+        var result = TryRead(json);
+        if (result is null)
         {
-            UnitHref = (layer, unit) => UnitPage.Href(id, layer, unit),
-            CardFooter = card => CueReview.Footer(card, id, token, recorded, just),
-        };
-        var result = AuditJson.Deserialize(json);
-        sb.Append("<div class=\"decision-view\">").Append(HtmlReport.Decision(result, new LinkedExemplars(id), view)).Append("</div>\n<div class=\"page\">");
-        CueReview.History(sb, recorded);
+            // A result without the engine's details (a stand-in engine, or a document from elsewhere): the verdict alone.
+            sb.Append("<div class=\"page\"><p class=\"notice\">Verdict: <strong>").Append(E(a.Verdict)).Append("</strong>. ")
+              .Append("This audit's result carries no cue details to show.</p></div>\n");
+        }
+        else
+        {
+            var view = new ReportView
+            {
+                UnitHref = (layer, unit) => UnitPage.Href(id, layer, unit),
+                CardFooter = card => CueReview.Footer(card, id, token, recorded, just, result),
+            };
+            sb.Append("<div class=\"decision-view\">").Append(HtmlReport.Decision(result, new LinkedExemplars(id), view)).Append("</div>\n");
+        }
+        sb.Append("<div class=\"page\">");
+        CueReview.History(sb, history, just);
+        CueReview.OverrideForm(sb, id, token, a.Verdict);
         sb.Append("<p class=\"more-links\"><a href=\"/ui/audits/").Append(id).Append("/report\">The full report</a> (every finding, place pattern, group accuracy, ")
           .Append("problem and the policy; one self-contained file) · <a href=\"/api/audits/").Append(id).Append("/findings\">findings as JSON</a></p></div>\n");
-        return Html(Page(http, $"{title} · {a.Verdict}", sb.ToString()));
+        return Html(Page(http, $"{title} · {effective?.Verdict ?? a.Verdict}", sb.ToString()));
+    }
+
+    /// <summary>The engine's audit.json, or null when the stored result is not one (it lacks the parts the pages draw).</summary>
+    internal static AuditResult? TryRead(string json)
+    {
+        try
+        {
+            var result = AuditJson.Deserialize(json);
+            return result is { Attributes: not null, Findings: not null, CueGroups: not null, Candidates: not null, Groups: not null, Model: not null, ImageSet: not null, Coverage: not null, Reasons: not null, Policy: not null }
+                ? result : null;
+        }
+        catch (System.Text.Json.JsonException)
+        {
+            return null;
+        }
     }
 
     private static async Task<IResult> FullReportAsync(Guid id, HttpContext http, AuditStore audits, ReportCache reports, CancellationToken ct)

@@ -62,6 +62,9 @@ form.decide textarea { width: min(420px, 100%); }
 form.decide button { align-self: flex-end; }
 table.history tr.superseded td { color: var(--muted); }
 .more-links { margin: 16px 0 32px; }
+.override { border: 2px solid var(--warn); background: var(--warn-bg); padding: 8px 12px; margin: 8px 0; }
+details.override-form { margin: 16px 0; }
+details.override-form summary { cursor: pointer; font-weight: 600; }
 :focus-visible { outline: 3px solid var(--warn); outline-offset: 2px; }
 """;
 

@@ -32,8 +32,8 @@ internal static class UnitPage
             return Message(http, 404, "Unit not found", $"No finished audit {id} for this team.", "/ui/audits");
         if (layer.Length is 0 or > MaxLayerName)
             return Message(http, 400, "Unit not found", "layer is required (a tensor name of the model).", back);
-        var result = AuditJson.Deserialize(json);
-        if (!HtmlReport.HasUnit(result, layer, unit))
+        var result = AuditPage.TryRead(json);
+        if (result is null || !HtmlReport.HasUnit(result, layer, unit))
             return Message(http, 404, "Unit not found", $"This audit has no findings for unit {unit} of {layer}.", back);
 
         bool whole = http.Request.Query["view"] == "whole";

@@ -43,6 +43,34 @@ public sealed class AuditPagesTests
     }
 
     [PgFact]
+    public async Task Override_ThroughTheForm_IsShownAboveTheVerdictAndInTheHistory()
+    {
+        await using var svc = await ServiceUnderTest.StartAsync(workers: 1);
+        using var api = await svc.ClientAsync("team-a");
+        var id = await AuditEndpointsTests.SubmitAsync(api, await Uploads.ModelAsync(api), await Uploads.ImageSetAsync(api, 2), 2);
+        Assert.Equal("pass", (await svc.WaitForEndAsync(api, id)).Verdict); // the counting engine passes a complete audit
+        var (key, info) = await BrowserSession.KeyAsync(svc, "team-a", "rita");
+        using var browser = new BrowserSession(svc);
+        (await browser.LoginAsync(key)).Dispose();
+        var before = await browser.GetPageAsync($"/ui/audits/{id}");
+        var token = BrowserSession.TokenIn(before);
+        Assert.Contains("Sign and set the verdict to block", before, StringComparison.Ordinal);
+
+        using var bare = await browser.PostFormAsync($"/ui/audits/{id}/reviews", ("__af", token), ("decision", "override"), ("verdict", "block"), ("reason", " "));
+        using var done = await browser.PostFormAsync($"/ui/audits/{id}/reviews", ("__af", token), ("decision", "override"), ("verdict", "block"),
+            ("reason", "site <i>B</i> images not yet reviewed"), ("reviewer", "someone else"));
+
+        Assert.Equal((HttpStatusCode)422, bare.StatusCode);
+        Assert.Equal(HttpStatusCode.SeeOther, done.StatusCode);
+        var after = await browser.GetPageAsync(done.Headers.Location!.OriginalString);
+        Assert.Contains("Verdict overridden to BLOCK</strong> by rita (" + info.Prefix + ")", after, StringComparison.Ordinal);
+        Assert.Contains("site &lt;i&gt;B&lt;/i&gt; images not yet reviewed", after, StringComparison.Ordinal);
+        Assert.Contains("Verdict override → block", after, StringComparison.Ordinal);
+        Assert.DoesNotContain("someone else", after, StringComparison.Ordinal);
+        Assert.Equal("block", (await api.GetFromJsonAsync<JsonElement>($"/api/audits/{id}/verdict")).GetProperty("verdict").GetString());
+    }
+
+    [PgFact]
     public async Task Review_PostWithoutAntiforgeryToken_IsRefusedAndNotStored()
     {
         await using var svc = await ServiceUnderTest.StartAsync(workers: 1);

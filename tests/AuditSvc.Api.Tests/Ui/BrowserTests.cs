@@ -57,6 +57,7 @@ public sealed class BrowserTests(ITestOutputHelper output)
         var formTop = double.Parse(await tools.EvaluateAsync("String(document.querySelector('#decide .cuecard form.decide').getBoundingClientRect().top + window.scrollY)"), Inv);
         Assert.True(formTop < cardBottom, "the review control is not on the first card");
         await Save(tools, shots, "audit.png", 768);
+        output.WriteLine("audit page bytes: " + await tools.EvaluateAsync("String(new Blob([document.documentElement.outerHTML]).size)"));
         await Save(tools, shots, "audit-first-card.png", Math.Min(cardBottom + 16, 2400));
 
         // A decision recorded on the card: confirmation on the card, the signer from the session, the history entry.
@@ -82,6 +83,7 @@ public sealed class BrowserTests(ITestOutputHelper output)
         await tools.NavigateAsync(new Uri(svc.Address, $"/ui/audits/{id}/report"));
         Assert.Equal("0", await tools.EvaluateAsync("String(document.querySelectorAll('img[src^=\"http\"]').length)"));
         await Save(tools, shots, "report.png", 768);
+        output.WriteLine("report bytes: " + await tools.EvaluateAsync("String(new Blob([document.documentElement.outerHTML]).size)"));
         output.WriteLine($"screenshots: {shots}");
     }
 
