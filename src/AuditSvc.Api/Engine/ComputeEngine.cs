@@ -42,7 +42,7 @@ public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine
             read = plan.ReadLayers.Select(l => l.Name),
             layers = plan.Layers,
         }, ApiJson.Options);
-        return new ModelIntake(JsonSerializer.Serialize(plan.Recipe, ApiJson.Options), layers);
+        return new ModelIntake(RecipeText.Write(plan.Recipe), layers);
     }, ct);
 
     public Task<ItemTable> IntakeImageSetAsync(string folder, IReadOnlyList<string>? classNames, CancellationToken ct) =>
@@ -97,7 +97,9 @@ public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine
     {
         if ((uint)item >= (uint)inputs.Items.Items.Count) return null;
         // The stored recipe is the one the pass used; no need to load the model for a picture.
-        var recipe = JsonSerializer.Deserialize<AuditSvc.Core.Models.InputRecipe>(inputs.RecipeJson, ApiJson.Options)
+        // Models stored before recipes kept the recipe file's words were written in the API's camelCase.
+        var recipe = RecipeText.TryRead(inputs.RecipeJson)
+            ?? JsonSerializer.Deserialize<AuditSvc.Core.Models.InputRecipe>(inputs.RecipeJson, ApiJson.Options)
             ?? throw new AuditInputException("recipe", "is empty");
         return new ExemplarImages(i => inputs.Items.Items[i].Path, recipe).Png(item, box, whole);
     }, ct);

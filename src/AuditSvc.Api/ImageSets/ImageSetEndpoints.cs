@@ -73,7 +73,9 @@ public static class ImageSetEndpoints
         if (modelId is not { } id) return null;
         var model = await models.GetAsync(http.User.TeamId(), id, ct) ?? throw new AuditInputException("modelId", $"no model {id} for this team");
         using var recipe = JsonDocument.Parse(model.Recipe);
-        return recipe.RootElement.TryGetProperty("classNames", out var names) && names.ValueKind == JsonValueKind.Array
+        // The recipe file's words; models stored before recipes kept them were spelt in camelCase.
+        return (recipe.RootElement.TryGetProperty("class_names", out var names) || recipe.RootElement.TryGetProperty("classNames", out names))
+               && names.ValueKind == JsonValueKind.Array
             ? names.EnumerateArray().Select(e => e.GetString() ?? "").ToList()
             : null;
     }

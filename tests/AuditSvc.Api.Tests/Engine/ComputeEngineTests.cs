@@ -57,7 +57,14 @@ public sealed class ComputeEngineTests
         form.Add(file, "model", Path.GetFileName(model));
         var response = await client.PostAsync("/api/models", form);
         Assert.Equal(HttpStatusCode.Created, response.StatusCode);
-        return (await response.Content.ReadFromJsonAsync<JsonElement>()).GetProperty("id").GetGuid();
+        var body = await response.Content.ReadFromJsonAsync<JsonElement>();
+        // The recipe comes back in the words it was sent in, not re-spelt in the API's casing.
+        var sent = JsonDocument.Parse(await File.ReadAllTextAsync(Path.ChangeExtension(model, ".recipe.json"))).RootElement;
+        var echoed = body.GetProperty("recipe");
+        foreach (var field in sent.EnumerateObject())
+            Assert.Equal(field.Value.GetRawText().Replace(" ", "", StringComparison.Ordinal).Replace("\n", "", StringComparison.Ordinal),
+                echoed.GetProperty(field.Name).GetRawText());
+        return body.GetProperty("id").GetGuid();
     }
 
     private static string RepoRoot()
