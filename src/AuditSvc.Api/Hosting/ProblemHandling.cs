@@ -69,10 +69,38 @@ public static class ProblemHandling
         }
     }
 
+    /// <summary>PostgreSQL unreachable, shutting down or starting up, anywhere in the chain (Hangfire wraps its own).</summary>
+    public static bool DatabaseUnavailable(Exception? e)
+    {
+        for (; e is not null; e = e.InnerException)
+        {
+            if (e is Npgsql.PostgresException pg)
+                return pg.SqlState.StartsWith("08", StringComparison.Ordinal) || pg.SqlState.StartsWith("57P", StringComparison.Ordinal)
+                    || pg.SqlState.StartsWith("53", StringComparison.Ordinal);
+            if (e is Npgsql.NpgsqlException { IsTransient: true }) return true;
+        }
+        return false;
+    }
+
     private sealed class InputExceptionHandler(IProblemDetailsService problems) : IExceptionHandler
     {
         public async ValueTask<bool> TryHandleAsync(HttpContext http, Exception exception, CancellationToken cancellationToken)
         {
+            if (DatabaseUnavailable(exception))
+            {
+                // The database is down or restarting: a state to wait out, not a bug. Idle pooled connections are
+                // dead after a restart, so drop them now rather than let each fail one more request.
+                http.RequestServices.GetService<Npgsql.NpgsqlDataSource>()?.Clear();
+                Npgsql.NpgsqlConnection.ClearAllPools();
+                http.Response.StatusCode = 503;
+                http.Response.Headers.RetryAfter = "5";
+                return await problems.TryWriteAsync(new ProblemDetailsContext
+                {
+                    HttpContext = http,
+                    Exception = exception,
+                    ProblemDetails = { Status = 503, Title = "the database is unavailable; try again shortly" },
+                });
+            }
             var (status, title, field) = exception switch
             {
                 AuditInputException e => (400, e.Message, e.Subject),
