@@ -55,7 +55,15 @@ public static class AuditEndpoints
 
         var audit = await audits.CreateAsync(team, modelId, setId, set.ItemCount, chunkSize, policy, ct);
         if (audit is null) return ProblemHandling.Field("modelId", "model or image set is not this team's");
-        AuditJobs.EnqueueStart(queue, audit.Id);
+        try
+        {
+            AuditJobs.EnqueueStart(queue, audit.Id);
+        }
+        catch (Exception e) when (ProblemHandling.DatabaseUnavailable(e))
+        {
+            // The audit is stored; answering an error now would make a retrying client submit it twice. The
+            // reconciler starts audits left queued (and logs it), so 202 is the truth.
+        }
         return TypedResults.Accepted($"/api/audits/{audit.Id}", AuditResponse.From(audit, DateTime.UtcNow));
     }
 

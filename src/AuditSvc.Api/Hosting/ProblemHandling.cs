@@ -5,6 +5,7 @@ using Microsoft.AspNetCore.Http;
 using Microsoft.AspNetCore.Http.Features;
 using Microsoft.AspNetCore.Http.HttpResults;
 using Microsoft.Extensions.DependencyInjection;
+using Microsoft.Extensions.Options;
 
 namespace AuditSvc.Api.Hosting;
 
@@ -12,7 +13,7 @@ namespace AuditSvc.Api.Hosting;
 public static class ProblemHandling
 {
     public static IServiceCollection AddAuditProblems(this IServiceCollection services) =>
-        services.AddProblemDetails().AddExceptionHandler<InputExceptionHandler>();
+        services.AddProblemDetails(o => o.CustomizeProblemDetails = HideServerPaths).AddExceptionHandler<InputExceptionHandler>();
 
     public static WebApplication UseAuditProblems(this WebApplication app)
     {
@@ -29,10 +30,77 @@ public static class ProblemHandling
     /// <summary>404 for an audit that is missing or another team's: both answer alike, so ids cannot be probed.</summary>
     public static ProblemHttpResult AuditNotFound(Guid id) => TypedResults.Problem(statusCode: 404, title: $"no audit {id} for this team");
 
+    // Problems go to callers on other machines: where the artifact root, the temporary folder and the binaries
+    // live is the server's business. Paths under the root become relative to it (what a caller can act on).
+    private static void HideServerPaths(ProblemDetailsContext ctx)
+    {
+        var root = ctx.HttpContext.RequestServices.GetService<IOptions<ServiceOptions>>()?.Value.DataRoot;
+        var places = new List<(string Path, string Shown)>();
+        foreach (var (path, shown) in new[] { (root, "<artifact root>"), (Path.GetTempPath(), "<temp>"), (AppContext.BaseDirectory, "<service>") })
+        {
+            var trimmed = path?.TrimEnd(Path.DirectorySeparatorChar);
+            if (string.IsNullOrEmpty(trimmed) || trimmed.Length < 2) continue;
+            places.Add((trimmed + Path.DirectorySeparatorChar, shown == "<artifact root>" ? "" : shown + Path.DirectorySeparatorChar));
+            places.Add((trimmed, shown));
+        }
+        string Hide(string? text)
+        {
+            if (string.IsNullOrEmpty(text)) return text ?? "";
+            foreach (var (path, shown) in places) text = text.Replace(path, shown, StringComparison.Ordinal);
+            return text;
+        }
+        var p = ctx.ProblemDetails;
+        p.Title = p.Title is null ? null : Hide(p.Title);
+        p.Detail = p.Detail is null ? null : Hide(p.Detail);
+        if (p is HttpValidationProblemDetails v)
+        {
+            var errors = v.Errors.ToDictionary(e => Hide(e.Key), e => e.Value.Select(Hide).ToArray());
+            v.Errors.Clear();
+            foreach (var (k, e) in errors) v.Errors[k] = e;
+        }
+        foreach (var key in p.Extensions.Keys.ToList())
+        {
+            p.Extensions[key] = p.Extensions[key] switch
+            {
+                string text => Hide(text),
+                IDictionary<string, string[]> errors => errors.ToDictionary(e => Hide(e.Key), e => e.Value.Select(Hide).ToArray()),
+                var other => other,
+            };
+        }
+    }
+
+    /// <summary>PostgreSQL unreachable, shutting down or starting up, anywhere in the chain (Hangfire wraps its own).</summary>
+    public static bool DatabaseUnavailable(Exception? e)
+    {
+        for (; e is not null; e = e.InnerException)
+        {
+            if (e is Npgsql.PostgresException pg)
+                return pg.SqlState.StartsWith("08", StringComparison.Ordinal) || pg.SqlState.StartsWith("57P", StringComparison.Ordinal)
+                    || pg.SqlState.StartsWith("53", StringComparison.Ordinal);
+            if (e is Npgsql.NpgsqlException { IsTransient: true }) return true;
+        }
+        return false;
+    }
+
     private sealed class InputExceptionHandler(IProblemDetailsService problems) : IExceptionHandler
     {
         public async ValueTask<bool> TryHandleAsync(HttpContext http, Exception exception, CancellationToken cancellationToken)
         {
+            if (DatabaseUnavailable(exception))
+            {
+                // The database is down or restarting: a state to wait out, not a bug. Idle pooled connections are
+                // dead after a restart, so drop them now rather than let each fail one more request.
+                http.RequestServices.GetService<Npgsql.NpgsqlDataSource>()?.Clear();
+                Npgsql.NpgsqlConnection.ClearAllPools();
+                http.Response.StatusCode = 503;
+                http.Response.Headers.RetryAfter = "5";
+                return await problems.TryWriteAsync(new ProblemDetailsContext
+                {
+                    HttpContext = http,
+                    Exception = exception,
+                    ProblemDetails = { Status = 503, Title = "the database is unavailable; try again shortly" },
+                });
+            }
             var (status, title, field) = exception switch
             {
                 AuditInputException e => (400, e.Message, e.Subject),

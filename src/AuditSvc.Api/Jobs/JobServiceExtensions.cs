@@ -63,7 +63,10 @@ public static partial class JobServiceExtensions
         return services;
     }
 
-    /// <summary>The job dashboard at /hangfire, for keys of the operator teams (or requests from this machine).</summary>
+    /// <summary>
+    /// The job dashboard at /hangfire, for operators only: a Bearer key, or a reviewer session, of a team listed in
+    /// the operator teams. Being on this machine is not enough (any local process, or a proxy in front, is local).
+    /// </summary>
     public static WebApplication MapJobDashboard(this WebApplication app)
     {
         var operators = app.Services.GetRequiredService<IOptions<ServiceOptions>>().Value.OperatorTeams
@@ -82,9 +85,11 @@ public static partial class JobServiceExtensions
         public async Task<bool> AuthorizeAsync(DashboardContext context)
         {
             var http = context.GetHttpContext();
-            var result = await http.AuthenticateAsync(ApiKeyHandler.SchemeName);
-            if (result.Succeeded) return teams.Contains(result.Principal!.TeamName() ?? "");
-            return new LocalRequestsOnlyAuthorizationFilter().Authorize(context);
+            // A key that is sent must be valid; a revoked or unknown one is refused even with a live session.
+            var key = await http.AuthenticateAsync(ApiKeyHandler.SchemeName);
+            if (key.Failure is not null) return false;
+            var caller = key.Succeeded ? key : await http.AuthenticateAsync(AuditSvc.Api.Pages.ReviewerCookie.Scheme);
+            return caller.Succeeded && teams.Contains(caller.Principal!.TeamName() ?? "");
         }
     }
 
