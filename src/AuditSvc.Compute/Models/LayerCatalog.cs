@@ -62,7 +62,7 @@ public static class LayerCatalog
                 if (layer is not null) layers.Add(layer with { MergesPaths = merges });
                 else skipped?.Add(new SkippedTensor(name, node.Name, node.OpType, s, layout?.Kind == LayerLayout.Vector
                     ? "a flattened copy of a channels-first map on its way to tokens (the map and the tokens are read instead)"
-                    : "its axes are not a traced image layout ([N,C,H,W], [N,H,W,C] or patch tokens [N,T,C]): attention scores, heads split off, or a reshape the intake cannot follow"));
+                    : "not a traced image layout: attention scores, heads split off, or a reshape the intake cannot follow"));
             }
         }
         return layers;
