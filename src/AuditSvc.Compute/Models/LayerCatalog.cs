@@ -105,12 +105,18 @@ public static class LayerCatalog
     }
 
     /// <summary>Resolves an explicit list of names against the candidates, in the order given.</summary>
-    public static List<LayerInfo> Select(string modelPath, IReadOnlyList<LayerInfo> candidates, IReadOnlyList<string> names)
+    /// <param name="skipped">Tensors found but not readable: naming one says which node makes it and why.</param>
+    public static List<LayerInfo> Select(string modelPath, IReadOnlyList<LayerInfo> candidates, IReadOnlyList<string> names,
+        IReadOnlyList<SkippedTensor>? skipped = null)
     {
+        ArgumentNullException.ThrowIfNull(names);
         var byName = candidates.ToDictionary(l => l.Name, StringComparer.Ordinal);
         var picked = new List<LayerInfo>();
         foreach (var name in names.Select(n => n.Trim()).Where(n => n.Length > 0).Distinct(StringComparer.Ordinal))
         {
+            if (skipped?.FirstOrDefault(s => s.Name == name) is { } why)
+                throw new AuditInputException("--layers",
+                    $"'{name}' [{string.Join(",", why.Shape)}] from node '{why.Node}' ({why.OpType}) cannot be read: {why.Reason}");
             if (!byName.TryGetValue(name, out var layer))
                 throw new AuditInputException("--layers",
                     $"'{name}' is not a readable layer of {modelPath}; layers: {string.Join(", ", candidates.Select(l => l.Name))}");

@@ -76,7 +76,7 @@ public static class ModelIntake
             throw new AuditInputException(modelPath, "the graph has no readable layers (float tensors [N,C,H,W], [N,H,W,C], patch tokens [N,T,C] or [N,C] computed from the image)");
         var layers = LayerCatalog.MarkDefaults(graph, candidates, classOutput);
         var read = options.Layers is { Count: > 0 } wanted
-            ? LayerCatalog.Select(modelPath, layers, wanted)
+            ? LayerCatalog.Select(modelPath, layers, wanted, skipped)
             : layers.Where(l => l.IsDefault).ToList();
 
         string readOutput = classOutput;
@@ -104,6 +104,14 @@ public static class ModelIntake
             else batchMode = BatchMode.ConcurrentSingle;
         }
 
+        if (read.Any(l => l.ReadName != l.Name))
+        {
+            // The channels-first views are nodes the intake added: one run at intake proves the runtime takes them.
+            var views = string.Join(", ", read.Where(l => l.ReadName != l.Name).Select(l => $"'{l.Name}'"));
+            Guarded(modelPath, () => OrtRunner.Run(rewritten.ToByteArray(), input.Name,
+                new FloatTensor(imageShape, new float[checked((int)imageShape.Aggregate(1L, (a, b) => a * b))])), $"reading layers {views} through a channels-first view");
+        }
+
         var plan = new ModelPlan(
             Path.GetFullPath(modelPath),
             Convert.ToHexStringLower(SHA256.HashData(bytes)),
@@ -118,7 +126,7 @@ public static class ModelIntake
     }
 
     // ONNX Runtime refusing the graph is a problem with the file, not with the service.
-    private static T Guarded<T>(string modelPath, Func<T> run)
+    private static T Guarded<T>(string modelPath, Func<T> run, string? doing = null)
     {
         try
         {
@@ -126,7 +134,7 @@ public static class ModelIntake
         }
         catch (OnnxRuntimeException e)
         {
-            throw new AuditInputException(modelPath, $"ONNX Runtime cannot run the model ({e.Message})", e);
+            throw new AuditInputException(modelPath, $"ONNX Runtime cannot run the model{(doing is null ? "" : " " + doing)} ({e.Message})", e);
         }
     }
 }

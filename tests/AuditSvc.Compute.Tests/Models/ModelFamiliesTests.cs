@@ -168,6 +168,15 @@ public class ModelFamiliesTests
         }
     }
 
+    [Fact]
+    public void Load_LayerThatIsAttentionScores_NamesNodeAndReason()
+    {
+        var e = Assert.Throws<AuditInputException>(() => Plan("vit", new ModelLoadOptions(["/blocks/blocks.0/attn/MatMul_1_output_0"])));
+        Assert.Equal("--layers", e.Subject);
+        Assert.Contains("from node '/blocks/blocks.0/attn/MatMul_1' (MatMul)", e.Message);
+        Assert.Contains("attention scores", e.Message);
+    }
+
     private static FloatTensor ToNhwc(float[] nchw)
     {
         var d = new float[nchw.Length];
