@@ -177,6 +177,33 @@ public class ModelFamiliesTests
         Assert.Contains("attention scores", e.Message);
     }
 
+    [Fact]
+    public void Load_SingleLogitOutput_ReadsTwoClassesWhoseSoftmaxIsTheSigmoid()
+    {
+        // The binary fixture without its final Sigmoid: the output is one logit z.
+        using var dir = new TempDir();
+        var m = Onnx.ModelProto.Parser.ParseFrom(File.ReadAllBytes(Fixture("binary-sigmoid")));
+        var sigmoid = m.Graph.Node.Single(n => n.OpType == "Sigmoid");
+        m.Graph.Node.Remove(sigmoid);
+        foreach (var n in m.Graph.Node)
+            for (int i = 0; i < n.Output.Count; i++)
+                if (n.Output[i] == sigmoid.Input[0]) n.Output[i] = sigmoid.Output[0];
+        string path = Path.Combine(dir.Path, "logit.onnx");
+        File.WriteAllBytes(path, m.ToByteArray());
+        var loaded = ModelIntake.Load(path);
+        Assert.Equal(2, loaded.Plan.ClassCount);
+        Assert.False(loaded.Plan.OutputIsProbabilities);
+        Assert.Contains(loaded.Plan.Notes, n => n.Contains("a logit", StringComparison.Ordinal));
+
+        var noise = OrtRunner.Noise([1, 3, 64, 64], 3);
+        float z = OrtRunner.Run(m.ToByteArray(), "image", noise)[sigmoid.Output[0]].Data[0];
+        var two = OrtRunner.Run(loaded.RewrittenModel, loaded.Plan.InputName, noise, [loaded.Plan.OutputName])[loaded.Plan.OutputName].Data;
+        var p = two.ToArray();
+        ActivationPass.Softmax(p);
+        // σ(z) = 1 / (1 + e^−z): the positive class's probability (common practice for one-logit binary heads).
+        Assert.Equal(1 / (1 + Math.Exp(-z)), p[1], 5);
+    }
+
     private static FloatTensor ToNhwc(float[] nchw)
     {
         var d = new float[nchw.Length];
