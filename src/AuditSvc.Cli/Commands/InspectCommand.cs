@@ -89,7 +89,7 @@ internal static class InspectCommand
             plan.ReadLayers.Any(x => x.Name == l.Name) ? "*" : "",
             l.Name, l.OpType, AuditAssembler.LayoutName(l.Layout),
             l.Rank == 4 ? $"{l.Channels}x{l.Height}x{l.Width}" : $"{l.Channels}",
-            l.Rank == 2 ? "whole image" : Field(l.Field.Y, l.Field.X) + (l.Layout == LayerLayout.Tokens ? " patch" : "") + (l.Field.Global ? " +global" : ""),
+            l.Rank == 2 ? "whole image" : Field(l.Field.Y, l.Field.X) + (l.Layout == LayerLayout.Tokens ? " patch" : "") + (l.Field.Global && l.Height * l.Width > 1 ? " +global" : ""),
             l.IsDefault ? "default" : "",
         }).ToList();
         rows.Insert(0, ["read", "layer", "op", "layout", "CxHxW (units x places)", "field size / jump / offset", "default"]);
@@ -100,7 +100,7 @@ internal static class InspectCommand
         w.WriteLine("why these layers: the last activation (else block output) at each resolution, the residual stream after each transformer block, and the features feeding the classifier");
         foreach (var g in plan.ReadLayers.Where(l => l.Rank == 4).GroupBy(l => l.PlaceNote))
             w.WriteLine($"crops    {g.Count()} read layer(s): {g.Key}");
-        if (plan.Layers.Any(l => l.Field.Global))
+        if (plan.Layers.Any(l => l.Field.Global && l.Height * l.Width > 1))
             w.WriteLine("+global  a path that has seen the whole image (squeeze-excitation, attention) feeds these places: the box is where the place sits, the true field is the whole image");
         foreach (var note in plan.Notes) w.WriteLine($"note     {note}");
         if (plan.Skipped.Count > 0)

@@ -51,7 +51,7 @@ public sealed record LayerInfo(
     /// <summary>Why a crop of this layer's peak is where it is, in words.</summary>
     public string PlaceNote => Layout switch
     {
-        LayerLayout.Vector => "one value for the whole image",
+        _ when Rank == 2 || Height * Width == 1 => "one value for the whole image",
         LayerLayout.Tokens when Field.Global => "token on the patch grid; the crop is the token's patch, but attention makes its true receptive field the whole image",
         LayerLayout.Tokens => "token on the patch grid, before any attention: the crop is the token's patch",
         _ when Field.Global => "the crop is the local path's receptive field; a global path (squeeze-excitation, pooled context) also feeds it, so its true field is the whole image",
