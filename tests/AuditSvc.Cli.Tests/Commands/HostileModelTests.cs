@@ -1,3 +1,4 @@
+using AuditSvc.Cli.Demo;
 using Google.Protobuf;
 using Onnx;
 
@@ -92,5 +93,20 @@ public class HostileModelTests
         Assert.True(status == 2, stderr);
         Assert.Contains("input size 4000x4000", stderr);
         Assert.Contains("over the limit", stderr);
+    }
+
+    [Theory]
+    [InlineData(4000L, "over the limit of 1048576 pixels")]
+    [InlineData(3_000_000_000L, "declares dimension 2 as 3000000000")]
+    public void Audit_AbsurdInputShape_ExitsTwoBeforeAnyImageIsRun(long side, string expected)
+    {
+        var dir = CliProcess.TempDir("hostile-audit");
+        var manifest = DemoSetGenerator.Write(Path.Combine(dir, "set"), new DemoSetOptions(3, 0.9, 1));
+        var model = Save(dir, "absurd.onnx", WithInputDims(1, 3, side, side > 10_000 ? 64 : side));
+        var (status, _, stderr) = CliProcess.Run("audit", "--model", model, "--data", manifest, "--labels", "sound,spotted,mouldy", "--out", Path.Combine(dir, "out"));
+        Assert.True(status == 2, $"status {status}: {stderr}");
+        Assert.Contains(model, stderr);
+        Assert.Contains(expected, stderr);
+        Assert.False(File.Exists(Path.Combine(dir, "out", "audit.json")));
     }
 }
