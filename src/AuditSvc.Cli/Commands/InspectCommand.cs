@@ -97,7 +97,7 @@ internal static class InspectCommand
         foreach (var row in rows)
             w.WriteLine(string.Join("  ", row.Select((cell, c) => cell.PadRight(widths[c]))).TrimEnd());
         w.WriteLine();
-        w.WriteLine("why these layers: the last activation (else block output) at each resolution, the residual stream after each transformer block, and the features feeding the classifier");
+        w.WriteLine("why these layers: the last activation or block output (residual addition, branch concatenation) at each resolution, the residual stream after each transformer block, and the features feeding the classifier");
         foreach (var g in plan.ReadLayers.Where(l => l.Rank == 4).GroupBy(l => l.PlaceNote))
             w.WriteLine($"crops    {g.Count()} read layer(s): {g.Key}");
         if (plan.Layers.Any(l => l.Field.Global && l.Height * l.Width > 1))

@@ -38,11 +38,15 @@ public static class LayerCatalog
         var layouts = TensorLayouts.Infer(graph, imageInput, shapes, inputShape);
         var fields = ReceptiveFields.Walk(imageInput, OnnxFieldNodes.From(graph, imageInput, shapes, layouts), inputHeight, inputWidth);
         var outputs = graph.Output.Select(o => o.Name).ToHashSet(StringComparer.Ordinal);
+        var producers = new Dictionary<string, NodeProto>(StringComparer.Ordinal);
+        foreach (var n in graph.Node) foreach (var o in n.Output) producers[o] = n;
         var layers = new List<LayerInfo>();
         foreach (var node in graph.Node)
         {
             if (NotLayers.Contains(node.OpType)) continue;
-            bool merges = node.OpType is "Add" or "Sum" && node.Input.Count(fields.ContainsKey) >= 2;
+            // Residual additions and multi-branch concatenations end a block: both merge image paths.
+            bool merges = node.OpType is "Add" or "Sum" or "Concat" && node.Input.Count(fields.ContainsKey) >= 2;
+            bool activation = Activations.Contains(node.OpType) || IsComposedActivation(node, producers);
             foreach (var name in node.Output)
             {
                 if (outputs.Contains(name) || !shapes.TryGetValue(name, out var s) || !fields.TryGetValue(name, out var field)) continue;
@@ -59,7 +63,7 @@ public static class LayerCatalog
                         { Layout = LayerLayout.Tokens, PrefixTokens = layout.Prefix },
                     _ => null,
                 };
-                if (layer is not null) layers.Add(layer with { MergesPaths = merges });
+                if (layer is not null) layers.Add(layer with { MergesPaths = merges, IsActivation = activation });
                 else skipped?.Add(new SkippedTensor(name, node.Name, node.OpType, s, layout?.Kind == LayerLayout.Vector
                     ? "a flattened copy of a channels-first map on its way to tokens (the map and the tokens are read instead)"
                     : "not a traced image layout: attention scores, heads split off, or a reshape the intake cannot follow"));
@@ -70,11 +74,26 @@ public static class LayerCatalog
 
     private static int Dim(long d) => checked((int)d);
 
+    // SiLU/Swish exported as Mul(x, Sigmoid(x)) (Hardswish as Mul(x, HardSigmoid(x))), and GELU exported as
+    // Mul(Mul(x, Add(Erf(x / √2), 1)), 0.5): the Mul is the activation's output.
+    private static bool IsComposedActivation(NodeProto node, Dictionary<string, NodeProto> producers)
+    {
+        if (node.OpType != "Mul" || node.Input.Count != 2) return false;
+        foreach (var (a, b) in new[] { (node.Input[0], node.Input[1]), (node.Input[1], node.Input[0]) })
+        {
+            if (producers.TryGetValue(b, out var gate) && gate.OpType is "Sigmoid" or "HardSigmoid" && gate.Input.Count > 0 && gate.Input[0] == a) return true;
+            if (producers.TryGetValue(a, out var inner) && inner.OpType == "Mul"
+                && inner.Input.Any(i => producers.TryGetValue(i, out var add) && add.OpType == "Add"
+                    && add.Input.Any(j => producers.TryGetValue(j, out var erf) && erf.OpType == "Erf"))) return true;
+        }
+        return false;
+    }
+
     /// <summary>Token layers read by default at most: the residual stream after evenly spaced blocks, the last always.</summary>
     public const int MaxTokenDefaults = 8;
 
     /// <summary>
-    /// The defaults a practitioner would read: the last activation (else the last block output, else the last tensor) at each spatial
+    /// The defaults a practitioner would read: the last activation or block output (else the last tensor) at each spatial
     /// resolution, skipping leading resolutions with fewer than 8 channels, plus the penultimate features
     /// feeding the classifier. Token grids (a transformer keeps one grid through every block) read the residual
     /// stream after each block (at most <see cref="MaxTokenDefaults"/>, evenly spaced, the last always).
@@ -86,7 +105,7 @@ public static class LayerCatalog
         var groups = candidates.Where(l => l.Rank == 4 && l.Height * l.Width > 1)
             .GroupBy(l => (Tokens: l.Layout == LayerLayout.Tokens, l.Height, l.Width)).ToList();
         var spatial = groups.Where(g => !g.Key.Tokens)
-            .Select(g => g.LastOrDefault(l => Activations.Contains(l.OpType)) ?? g.LastOrDefault(l => l.MergesPaths) ?? g.Last())
+            .Select(g => g.LastOrDefault(l => l.IsActivation || l.MergesPaths) ?? g.Last())
             .ToList();
         // Early, narrow maps are close to raw colour; drop them while something wider remains.
         while (spatial.Count > 1 && spatial[0].Channels < 8) spatial.RemoveAt(0);
@@ -94,7 +113,7 @@ public static class LayerCatalog
         foreach (var g in groups.Where(g => g.Key.Tokens))
         {
             var stream = g.Where(l => l.MergesPaths).ToList();
-            if (stream.Count == 0) { chosen.Add((g.LastOrDefault(l => Activations.Contains(l.OpType)) ?? g.Last()).Name); continue; }
+            if (stream.Count == 0) { chosen.Add((g.LastOrDefault(l => l.IsActivation) ?? g.Last()).Name); continue; }
             int take = Math.Min(MaxTokenDefaults, stream.Count);
             for (int i = 1; i <= take; i++) chosen.Add(stream[(int)Math.Round((double)i * stream.Count / take) - 1].Name);
         }

@@ -39,8 +39,11 @@ public sealed record LayerInfo(
     /// <summary>Leading tokens that are not places on the grid (a class token), for <see cref="LayerLayout.Tokens"/>.</summary>
     public int PrefixTokens { get; init; }
 
-    /// <summary>The node merges two image paths (a residual addition): a block's output.</summary>
+    /// <summary>The node merges two image paths (a residual addition, a multi-branch concatenation): a block's output.</summary>
     public bool MergesPaths { get; init; }
+
+    /// <summary>The tensor is an activation's output, including ones exported as several nodes (SiLU as x·σ(x), GELU through Erf).</summary>
+    public bool IsActivation { get; init; }
 
     /// <summary>
     /// The tensor the pass reads: the layer itself when it is [N,C,H,W] or [N,C], else a channels-first view of it

@@ -204,6 +204,30 @@ public class ModelFamiliesTests
         Assert.Equal(1 / (1 + Math.Exp(-z)), p[1], 5);
     }
 
+    [Fact]
+    public void Load_SiLUExportedAsSigmoidTimesInput_ReadsTheProductNotTheGate()
+    {
+        var plan = Plan("efficientnet");
+        var last = plan.ReadLayers.Last(l => l.Rank == 4);
+        Assert.Equal("/last/last.2/Mul_output_0", last.Name);
+        Assert.True(last.IsActivation);
+        Assert.DoesNotContain(plan.ReadLayers, l => l.OpType == "Sigmoid");
+    }
+
+    [Theory]
+    [InlineData("densenet", "/b2/Concat_2_output_0", 48)]
+    [InlineData("inception", "/i2/Concat_output_0", 48)]
+    public void Load_MultiBranchBlock_ReadsTheConcatenatedOutput(string name, string layer, int channels)
+    {
+        var read = Plan(name).ReadLayers.Single(l => l.Name == layer);
+        Assert.Equal(channels, read.Channels);
+        Assert.True(read.MergesPaths);
+    }
+
+    [Fact]
+    public void Load_GeluThroughErf_IsAnActivation() =>
+        Assert.True(Plan("convnext").Layers.Single(l => l.Name == "/s2/act/Mul_1_output_0").IsActivation);
+
     private static FloatTensor ToNhwc(float[] nchw)
     {
         var d = new float[nchw.Length];
