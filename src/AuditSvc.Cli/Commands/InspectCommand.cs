@@ -3,6 +3,7 @@ using System.Globalization;
 using System.Text.Json;
 using AuditSvc.Compute.Models;
 using AuditSvc.Core;
+using AuditSvc.Core.Audits;
 using AuditSvc.Core.Models;
 
 namespace AuditSvc.Cli.Commands;
@@ -86,17 +87,33 @@ internal static class InspectCommand
         var rows = plan.Layers.Select(l => new[]
         {
             plan.ReadLayers.Any(x => x.Name == l.Name) ? "*" : "",
-            l.Name, l.OpType,
+            l.Name, l.OpType, AuditAssembler.LayoutName(l.Layout),
             l.Rank == 4 ? $"{l.Channels}x{l.Height}x{l.Width}" : $"{l.Channels}",
-            Field(l.Field.Y, l.Field.X),
+            l.Rank == 2 ? "whole image" : Field(l.Field.Y, l.Field.X) + (l.Layout == LayerLayout.Tokens ? " patch" : "") + (l.Field.Global && l.Height * l.Width > 1 ? " +global" : ""),
             l.IsDefault ? "default" : "",
         }).ToList();
-        rows.Insert(0, ["read", "layer", "op", "CxHxW", "field size / jump / offset", "default"]);
-        int[] widths = Enumerable.Range(0, 6).Select(c => rows.Max(row => row[c].Length)).ToArray();
+        rows.Insert(0, ["read", "layer", "op", "layout", "CxHxW (units x places)", "field size / jump / offset", "default"]);
+        int[] widths = Enumerable.Range(0, 7).Select(c => rows.Max(row => row[c].Length)).ToArray();
         foreach (var row in rows)
             w.WriteLine(string.Join("  ", row.Select((cell, c) => cell.PadRight(widths[c]))).TrimEnd());
+        w.WriteLine();
+        w.WriteLine("why these layers: the last activation or block output (residual addition, branch concatenation) at each resolution, the residual stream after each transformer block, and the features feeding the classifier");
+        foreach (var g in plan.ReadLayers.Where(l => l.Rank == 4).GroupBy(l => l.PlaceNote))
+            w.WriteLine($"crops    {g.Count()} read layer(s): {g.Key}");
+        if (plan.Layers.Any(l => l.Field.Global && l.Height * l.Width > 1))
+            w.WriteLine("+global  a path that has seen the whole image (squeeze-excitation, attention) feeds these places: the box is where the place sits, the true field is the whole image");
+        foreach (var note in plan.Notes) w.WriteLine($"note     {note}");
+        if (plan.Skipped.Count > 0)
+        {
+            w.WriteLine($"not read {plan.Skipped.Count} tensor(s) of rank 3 or more:");
+            foreach (var s in plan.Skipped.Take(MaxSkippedShown))
+                w.WriteLine($"  {s.Name} [{string.Join(",", s.Shape)}] from node '{s.Node}' ({s.OpType}): {s.Reason}");
+            if (plan.Skipped.Count > MaxSkippedShown) w.WriteLine($"  … and {plan.Skipped.Count - MaxSkippedShown} more (--json lists them all)");
+        }
         return w.ToString();
     }
+
+    private const int MaxSkippedShown = 12;
 
     private static string Name(ResizeMode m) => m == ResizeMode.Stretch ? "stretch" : "shorter-side-center-crop";
 
@@ -118,11 +135,14 @@ internal static class InspectCommand
             Batch = plan.Batch == BatchMode.Batched ? "batched" : "concurrent-single",
             Layers = plan.Layers.Select(l => new
             {
-                l.Name, Op = l.OpType, l.Rank, l.Channels, l.Height, l.Width,
-                Field = new { Y = Axis(l.Field.Y), X = Axis(l.Field.X) },
+                l.Name, Op = l.OpType, l.Rank, Layout = AuditAssembler.LayoutName(l.Layout), l.Channels, l.Height, l.Width, l.PrefixTokens,
+                Field = new { Y = Axis(l.Field.Y), X = Axis(l.Field.X), l.Field.Global },
+                Place = l.PlaceNote,
                 l.IsDefault, Read = read.Contains(l.Name),
             }),
             ReadLayers = plan.ReadLayers.Select(l => l.Name),
+            plan.Notes,
+            NotRead = plan.Skipped.Select(s => new { s.Name, s.Node, Op = s.OpType, s.Shape, s.Reason }),
         };
         return JsonSerializer.Serialize(doc, Json) + Environment.NewLine;
     }

@@ -33,7 +33,7 @@ public sealed class ModelRunner : IDisposable
         OrtEnvironment.EnsureQuiet();
         _session = new InferenceSession(onnx, options);
         _inputNames = [plan.InputName];
-        _outputNames = [plan.OutputName, .. reduced ? ReducedGraph.OutputNames(plan.ReadLayers) : plan.ReadLayers.Select(l => l.Name)];
+        _outputNames = [plan.OutputName, .. reduced ? ReducedGraph.OutputNames(plan.ReadLayers) : plan.ReadLayers.Select(l => l.ReadName)];
         Reduced = reduced;
         Channels = (int)(_session.InputMetadata[plan.InputName].Dimensions is { Length: 4 } d && d[1] > 0 ? d[1] : 3);
     }

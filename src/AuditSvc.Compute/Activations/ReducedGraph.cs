@@ -37,7 +37,7 @@ public static class ReducedGraph
             }
             string p = $"auditsvc_reduce_{l}_", flat = p + "flat", max = p + "max", arg = p + "argmax", shape = p + "shape";
             graph.Initializer.Add(Int64Tensor(shape, [0, layer.Channels, -1]));
-            graph.Node.Add(Node("Reshape", [layer.Name, shape], [flat], p + "reshape"));
+            graph.Node.Add(Node("Reshape", [layer.ReadName, shape], [flat], p + "reshape"));
             var argMax = Node("ArgMax", [flat], [arg], p + "argmax_node");
             argMax.Attribute.Add(IntAttr("axis", [2]));
             argMax.Attribute.Add(IntAttr("keepdims", [1]));
@@ -67,7 +67,7 @@ public static class ReducedGraph
     public static IReadOnlyList<string> OutputNames(IReadOnlyList<LayerInfo> read) =>
         read.SelectMany((layer, l) => layer.Rank == 4
             ? new[] { $"auditsvc_reduce_{l}_max", $"auditsvc_reduce_{l}_argmax" }
-            : [layer.Name]).ToList();
+            : [layer.ReadName]).ToList();
 
     private static NodeProto Node(string op, string[] inputs, string[] outputs, string name)
     {

@@ -22,10 +22,12 @@ public static class GraphRewriter
         var classInfo = graph.Output.First(o => o.Name == classOutput).Clone();
         graph.Output.Clear();
         graph.Output.Add(classInfo);
+        long opset = copy.OpsetImport.Where(o => o.Domain is "" or "ai.onnx").Select(o => o.Version).DefaultIfEmpty(13).Max();
         foreach (var layer in read)
         {
             long[] dims = layer.Rank == 4 ? [1, layer.Channels, layer.Height, layer.Width] : [1, layer.Channels];
-            graph.Output.Add(FloatInfo(layer.Name, dims));
+            GraphAdapters.AddView(graph, layer, opset);
+            graph.Output.Add(FloatInfo(layer.ReadName, dims));
         }
         if (symbolicBatch)
         {

@@ -29,6 +29,9 @@ public static class ModelIntake
         ArgumentNullException.ThrowIfNull(modelPath);
         options ??= new ModelLoadOptions();
         if (!File.Exists(modelPath)) throw new AuditInputException(modelPath, "model file not found");
+        long length = new FileInfo(modelPath).Length;
+        if (length > OnnxGuard.MaxModelBytes)
+            throw new AuditInputException(modelPath, $"the model file is {length} bytes, over the limit of {OnnxGuard.MaxModelBytes} bytes");
         var bytes = File.ReadAllBytes(modelPath);
         var model = OnnxGuard.Parse(modelPath, bytes);
         OnnxGuard.RejectExternalData(modelPath, model);
@@ -36,9 +39,25 @@ public static class ModelIntake
         if (input.Batch is > 1)
             throw new AuditInputException(modelPath,
                 $"graph input '{input.Name}' has its batch dimension fixed at {input.Batch} (field 'shape', dimension 0); export it with batch 1 or a symbolic batch");
+        var notes = new List<string>();
+        if (input.ChannelsLast)
+        {
+            string original = input.Name;
+            input = input with { Name = GraphAdapters.ChannelsFirstInput(model, original) };
+            notes.Add($"channels-last input '{original}' [N,H,W,{input.Channels}]: the intake feeds it through a Transpose from [N,{input.Channels},H,W]");
+        }
+        var normalisers = InputNormalisation.Detect(model.Graph, input.Name);
 
         var recipePath = RecipeLoader.RecipePathFor(modelPath);
-        var recipe = RecipeLoader.Resolve(input, RecipeLoader.ReadFile(recipePath), options.Recipe, recipePath);
+        var fileRecipe = RecipeLoader.ReadFile(recipePath);
+        var recipe = RecipeLoader.Resolve(input, fileRecipe, options.Recipe, recipePath, graphNormalises: normalisers.Count > 0);
+        if (normalisers.Count > 0)
+        {
+            bool given = (options.Recipe?.Mean ?? options.Recipe?.Std ?? fileRecipe?.Mean ?? fileRecipe?.Std) is not null;
+            notes.Add(given
+                ? $"the graph normalises its own input ({string.Join(", ", normalisers)}) and the recipe also applies mean/std: check that this double normalisation is intended"
+                : $"the graph normalises its own input ({string.Join(", ", normalisers)}): the recipe passes pixels 0..1 with mean 0 and std 1, so nothing is normalised twice");
+        }
         long[] imageShape = [1, input.Channels, recipe.Height, recipe.Width];
 
         var graph = model.Graph;
@@ -48,44 +67,66 @@ public static class ModelIntake
         if (!shapes.TryGetValue(classOutput, out var classShape) || classShape.Length < 2)
             throw new AuditInputException(modelPath, $"the first graph output '{classOutput}' is not a float tensor [N, classes] (field 'output')");
         int classCount = checked((int)classShape.Skip(1).Aggregate(1L, (a, b) => a * b));
+        var producer = graph.Node.FirstOrDefault(n => n.Output.Contains(classOutput));
+        bool probabilities = producer?.OpType == "Softmax";
+
+        var skipped = new List<SkippedTensor>();
+        var candidates = LayerCatalog.Candidates(graph, input.Name, shapes, recipe.Height, recipe.Width, skipped, input.Channels);
+        if (candidates.Count == 0)
+            throw new AuditInputException(modelPath, "the graph has no readable layers (float tensors [N,C,H,W], [N,H,W,C], patch tokens [N,T,C] or [N,C] computed from the image)");
+        var layers = LayerCatalog.MarkDefaults(graph, candidates, classOutput);
+        var read = options.Layers is { Count: > 0 } wanted
+            ? LayerCatalog.Select(modelPath, layers, wanted, skipped)
+            : layers.Where(l => l.IsDefault).ToList();
+
+        string readOutput = classOutput;
+        if (classCount == 1)
+        {
+            // One output: a binary classifier's sigmoid probability or logit, read as two classes [negative, positive].
+            probabilities = producer?.OpType == "Sigmoid";
+            readOutput = GraphAdapters.TwoClassOutput(model, classOutput, probabilities);
+            classCount = 2;
+            notes.Add($"single output '{classOutput}' ({(probabilities ? "a sigmoid probability" : "a logit")}): read as two classes, 0 = negative, 1 = positive");
+        }
         if (recipe.ClassNames is { } names && names.Count != classCount)
             throw new AuditInputException(options.Recipe?.ClassNames is null ? recipePath : "--labels",
                 $"field 'class_names' has {names.Count} names, the model's output '{classOutput}' has {classCount} classes");
 
-        var candidates = LayerCatalog.Candidates(graph, input.Name, shapes, recipe.Height, recipe.Width);
-        if (candidates.Count == 0)
-            throw new AuditInputException(modelPath, "the graph has no readable layers (float tensors [N,C,H,W] or [N,C] computed from the image)");
-        var layers = LayerCatalog.MarkDefaults(graph, candidates, classOutput);
-        var read = options.Layers is { Count: > 0 } wanted
-            ? LayerCatalog.Select(modelPath, layers, wanted)
-            : layers.Where(l => l.IsDefault).ToList();
-
-        var single = GraphRewriter.ExposeLayers(model, input.Name, classOutput, read, symbolicBatch: input.Batch is null);
+        var single = GraphRewriter.ExposeLayers(model, input.Name, readOutput, read, symbolicBatch: input.Batch is null);
         var batchMode = BatchMode.Batched;
         var rewritten = single;
         if (input.Batch == 1)
         {
-            var batched = GraphRewriter.ExposeLayers(model, input.Name, classOutput, read, symbolicBatch: true);
+            var batched = GraphRewriter.ExposeLayers(model, input.Name, readOutput, read, symbolicBatch: true);
             bool free = options.CheckBatch
                 && Guarded(modelPath, () => GraphRewriter.BatchMatchesSingles(single, batched, input.Name, imageShape));
             if (free) rewritten = batched;
             else batchMode = BatchMode.ConcurrentSingle;
         }
 
-        var producer = graph.Node.FirstOrDefault(n => n.Output.Contains(classOutput));
+        if (read.Any(l => l.ReadName != l.Name))
+        {
+            // The channels-first views are nodes the intake added: one run at intake proves the runtime takes them.
+            var views = string.Join(", ", read.Where(l => l.ReadName != l.Name).Select(l => $"'{l.Name}'"));
+            Guarded(modelPath, () => OrtRunner.Run(rewritten.ToByteArray(), input.Name,
+                new FloatTensor(imageShape, new float[checked((int)imageShape.Aggregate(1L, (a, b) => a * b))])), $"reading layers {views} through a channels-first view");
+        }
+
         var plan = new ModelPlan(
             Path.GetFullPath(modelPath),
             Convert.ToHexStringLower(SHA256.HashData(bytes)),
-            input.Name, classOutput, classCount, recipe, layers, batchMode,
-            OutputIsProbabilities: producer?.OpType == "Softmax")
+            input.Name, readOutput, classCount, recipe, layers, batchMode,
+            OutputIsProbabilities: probabilities)
         {
             ReadLayers = read,
+            Notes = notes,
+            Skipped = skipped,
         };
         return new LoadedModel(plan, rewritten.ToByteArray());
     }
 
     // ONNX Runtime refusing the graph is a problem with the file, not with the service.
-    private static T Guarded<T>(string modelPath, Func<T> run)
+    private static T Guarded<T>(string modelPath, Func<T> run, string? doing = null)
     {
         try
         {
@@ -93,7 +134,7 @@ public static class ModelIntake
         }
         catch (OnnxRuntimeException e)
         {
-            throw new AuditInputException(modelPath, $"ONNX Runtime cannot run the model ({e.Message})", e);
+            throw new AuditInputException(modelPath, $"ONNX Runtime cannot run the model{(doing is null ? "" : " " + doing)} ({e.Message})", e);
         }
     }
 }

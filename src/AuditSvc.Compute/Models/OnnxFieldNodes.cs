@@ -22,15 +22,26 @@ public static class OnnxFieldNodes
     /// One field node per ONNX node. Only float tensors (those in <paramref name="shapes"/>) and the image
     /// count as inputs, so shape arithmetic (Shape → Gather → Reshape) does not leak into the fields.
     /// </summary>
-    public static List<FieldNode> From(GraphProto graph, string imageInput, IReadOnlyDictionary<string, long[]> shapes)
+    /// <param name="layouts">Tensor layouts (<see cref="TensorLayouts.Infer"/>): a transpose, reshape, dense layer, norm or
+    /// reduction that keeps a known layout on both sides acts on each place alone, so the field passes through.</param>
+    public static List<FieldNode> From(GraphProto graph, string imageInput, IReadOnlyDictionary<string, long[]> shapes,
+        IReadOnlyDictionary<string, TensorLayout>? layouts = null)
     {
+        ArgumentNullException.ThrowIfNull(graph);
         var initializers = graph.Initializer.ToDictionary(t => t.Name, StringComparer.Ordinal);
+        // Constant nodes hold values too (torch exports a Pad's amounts that way).
+        foreach (var c in graph.Node.Where(n => n.OpType == "Constant" && n.Output.Count == 1))
+            if (c.Attribute.FirstOrDefault(a => a.Name == "value")?.T is { } value) initializers.TryAdd(c.Output[0], value);
         var nodes = new List<FieldNode>();
         foreach (var node in graph.Node)
         {
             var inputs = node.Input.Where(i => i == imageInput || (shapes.ContainsKey(i) && !initializers.ContainsKey(i))).ToArray();
             foreach (var output in node.Output.Where(o => o.Length > 0))
-                nodes.Add(Reduce(node, output, inputs, initializers, shapes));
+            {
+                bool perPlace = layouts is not null && TensorLayouts.PerPlaceOps.Contains(node.OpType)
+                    && layouts.ContainsKey(output) && inputs.Any(layouts.ContainsKey);
+                nodes.Add(perPlace ? FieldNode.Elementwise(output, inputs) : Reduce(node, output, inputs, initializers, shapes));
+            }
         }
         return nodes;
     }

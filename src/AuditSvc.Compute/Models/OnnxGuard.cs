@@ -6,7 +6,8 @@ namespace AuditSvc.Compute.Models;
 
 /// <summary>The model's single image input: name and its four dimensions (null where symbolic).</summary>
 /// <param name="Batch">Fixed batch size, or null when symbolic.</param>
-public sealed record ImageInput(string Name, int? Batch, int Channels, int? Height, int? Width);
+/// <param name="ChannelsLast">The graph takes [N,H,W,C]; the intake puts a channels-first input in front.</param>
+public sealed record ImageInput(string Name, int? Batch, int Channels, int? Height, int? Width, bool ChannelsLast = false);
 
 /// <summary>
 /// Refuses ONNX files the service must not run: unparseable bytes, tensors stored outside the file,
@@ -14,6 +15,25 @@ public sealed record ImageInput(string Name, int? Batch, int Channels, int? Heig
 /// </summary>
 public static class OnnxGuard
 {
+    /// <summary>Largest model input the service runs, in pixels (1024×1024): the intake runs the model at this size to
+    /// learn its shapes, and every image is brought to it, so a larger declared input is refused up front.</summary>
+    public const long MaxInputPixels = 1024 * 1024;
+
+    /// <summary>Largest side of a model input, in pixels.</summary>
+    public const long MaxInputSide = 8192;
+
+    /// <summary>Largest ONNX file the intake reads (bytes): protobuf's own limit is 2 GB.</summary>
+    public const long MaxModelBytes = 1L << 30;
+
+    /// <summary>Refuses an input size over the limits; <paramref name="subject"/> and <paramref name="field"/> name where it came from.</summary>
+    public static void CheckInputSize(string subject, string field, long height, long width)
+    {
+        if (height > MaxInputSide || width > MaxInputSide || height * width > MaxInputPixels)
+            throw new AuditInputException(subject,
+                $"input size {width}x{height} ({field}) is over the limit of {MaxInputPixels} pixels (1024x1024) and {MaxInputSide} per side; " +
+                "audit at a smaller input size (--size) or export the model with a smaller input");
+    }
+
     private const int FloatType = (int)TensorProto.Types.DataType.Float;
 
     /// <summary>Parses the bytes as an ONNX model with a graph.</summary>
@@ -103,14 +123,21 @@ public static class OnnxGuard
         if (dims is null || dims.Count != 4)
             throw new AuditInputException(path,
                 $"graph input '{input.Name}' has rank {dims?.Count.ToString(System.Globalization.CultureInfo.InvariantCulture) ?? "unknown"}, expected 4 as [N,3,H,W] or [N,1,H,W] (field 'shape')");
-        int? channels = Fixed(dims[1]);
+        for (int i = 0; i < 4; i++)
+            if (dims[i].HasDimValue && (dims[i].DimValue < 0 || dims[i].DimValue > (i == 0 ? int.MaxValue : MaxInputSide)))
+                throw new AuditInputException(path,
+                    $"graph input '{input.Name}' declares dimension {i} as {dims[i].DimValue} (field 'shape'); the limit is {(i == 0 ? int.MaxValue : MaxInputSide)}");
+        long? d1 = Dim(dims[1]), d3 = Dim(dims[3]);
+        // [N,H,W,C] as other frameworks export it: the last axis holds 1 or 3 channels and axis 1 does not.
+        bool channelsLast = d3 is 1 or 3 && d1 is not (1 or 3);
+        long? channels = channelsLast ? d3 : d1;
         if (channels is not (1 or 3))
             throw new AuditInputException(path,
-                $"graph input '{input.Name}' has {channels?.ToString(System.Globalization.CultureInfo.InvariantCulture) ?? "a symbolic number of"} channels, expected 3 or 1 in NCHW layout (field 'shape', dimension 1)");
-        return new ImageInput(input.Name, Fixed(dims[0]), channels.Value, Fixed(dims[2]), Fixed(dims[3]));
+                $"graph input '{input.Name}' has {channels?.ToString(System.Globalization.CultureInfo.InvariantCulture) ?? "a symbolic number of"} channels, expected 3 or 1 as [N,C,H,W] or [N,H,W,C] (field 'shape', dimension 1 or 3)");
+        long? h = channelsLast ? d1 : Dim(dims[2]), w = channelsLast ? Dim(dims[2]) : d3;
+        if (h is long hh && w is long ww) CheckInputSize(path, $"graph input '{input.Name}', field 'shape'", hh, ww);
+        return new ImageInput(input.Name, (int?)Dim(dims[0]), (int)channels.Value, (int?)h, (int?)w, channelsLast);
     }
 
-    /// <summary>A fixed dimension's value, or null when symbolic or unset.</summary>
-    public static int? Fixed(TensorShapeProto.Types.Dimension d) =>
-        d.HasDimValue && d.DimValue > 0 ? checked((int)d.DimValue) : null;
+    private static long? Dim(TensorShapeProto.Types.Dimension d) => d.HasDimValue && d.DimValue > 0 ? d.DimValue : null;
 }

@@ -75,8 +75,12 @@ public static class RecipeLoader
     }
 
     /// <summary>Layers defaults, the file and the overrides, and checks the result against the model's input.</summary>
-    public static InputRecipe Resolve(ImageInput input, RecipeOverrides? file, RecipeOverrides? explicitOptions, string recipePath)
+    /// <param name="graphNormalises">The graph normalises its own input: with no mean/std given, the default is then
+    /// mean 0, std 1 (pixels 0..1 go in as they are) instead of ImageNet's, so nothing is normalised twice.</param>
+    public static InputRecipe Resolve(ImageInput input, RecipeOverrides? file, RecipeOverrides? explicitOptions, string recipePath,
+        bool graphNormalises = false)
     {
+        ArgumentNullException.ThrowIfNull(input);
         string Source(Func<RecipeOverrides, object?> pick) =>
             explicitOptions is not null && pick(explicitOptions) is not null ? "option" : recipePath;
         int? width = explicitOptions?.Width ?? file?.Width ?? input.Width;
@@ -86,11 +90,12 @@ public static class RecipeLoader
                 $"the model's input '{input.Name}' has a symbolic height or width; give the input size with --size N or WxH (or 'width'/'height' in {recipePath})");
         if (width < 1 || height < 1)
             throw new AuditInputException(Source(r => r.Width ?? r.Height), $"input size {width}x{height} must be positive (field 'width'/'height')");
+        OnnxGuard.CheckInputSize(Source(r => r.Width ?? r.Height), "field 'width'/'height'", height.Value, width.Value);
         if ((input.Width is int w && w != width) || (input.Height is int h && h != height))
             throw new AuditInputException(Source(r => r.Width ?? r.Height),
                 $"input size {width}x{height} (field 'width'/'height') differs from the model's fixed input {input.Width}x{input.Height}");
-        var mean = explicitOptions?.Mean ?? file?.Mean ?? Broadcast(InputRecipe.ImageNetMean, input.Channels);
-        var std = explicitOptions?.Std ?? file?.Std ?? Broadcast(InputRecipe.ImageNetStd, input.Channels);
+        var mean = explicitOptions?.Mean ?? file?.Mean ?? (graphNormalises ? new float[input.Channels] : Broadcast(InputRecipe.ImageNetMean, input.Channels));
+        var std = explicitOptions?.Std ?? file?.Std ?? (graphNormalises ? Enumerable.Repeat(1f, input.Channels).ToArray() : Broadcast(InputRecipe.ImageNetStd, input.Channels));
         CheckPerChannel(Source(r => r.Mean), "mean", mean, input.Channels, allowZero: true);
         CheckPerChannel(Source(r => r.Std), "std", std, input.Channels, allowZero: false);
         float scale = explicitOptions?.PixelScale ?? file?.PixelScale ?? 1f;

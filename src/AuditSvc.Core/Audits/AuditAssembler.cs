@@ -132,7 +132,23 @@ public static class AuditAssembler
     private static ModelSummary ModelSummaryOf(ModelPlan p) => new(
         p.ModelPath, p.Sha256, p.Recipe.Width, p.Recipe.Height, p.Recipe.Resize == ResizeMode.Stretch ? "stretch" : "shorter-side-center-crop",
         p.Recipe.Mean, p.Recipe.Std, p.Recipe.Order == ChannelOrder.Bgr ? "bgr" : "rgb", p.ClassNames, p.Batch == BatchMode.Batched ? "batched" : "concurrent-single",
-        p.ReadLayers.Select(l => new LayerSummary(l.Name, l.OpType, l.Channels, l.Height, l.Width, l.Field.Y, l.Field.X)).ToList());
+        p.ReadLayers.Select(l => new LayerSummary(l.Name, l.OpType, l.Channels, l.Height, l.Width, l.Field.Y, l.Field.X)
+        {
+            Layout = LayoutName(l.Layout),
+            Place = l.PlaceNote,
+        }).ToList())
+    {
+        Notes = p.Notes,
+    };
+
+    /// <summary>The layout's name in audit.json, `inspect` and the report.</summary>
+    public static string LayoutName(LayerLayout layout) => layout switch
+    {
+        LayerLayout.ChannelsLast => "channels-last",
+        LayerLayout.Tokens => "tokens",
+        LayerLayout.Vector => "vector",
+        _ => "channels-first",
+    };
 
     private static ImageSetSummary SetSummaryOf(ItemTable t, ActivationResult act)
     {

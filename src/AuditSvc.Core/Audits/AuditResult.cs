@@ -36,7 +36,14 @@ public sealed record PhaseTimes(double? Intake, double Pass, double Analysis, do
 /// <summary>One reason of the verdict: the attribute, the measure that triggered it, its value and the threshold.</summary>
 public sealed record VerdictReason(string Kind, string? Attribute, string? Measure, double? Value, double? Threshold, string Message);
 
-public sealed record LayerSummary(string Name, string OpType, int Channels, int Height, int Width, RfAxis FieldY, RfAxis FieldX);
+public sealed record LayerSummary(string Name, string OpType, int Channels, int Height, int Width, RfAxis FieldY, RfAxis FieldX)
+{
+    /// <summary>channels-first, channels-last, tokens or vector: how the tensor holds its units and places.</summary>
+    public string Layout { get; init; } = "channels-first";
+
+    /// <summary>What an exemplar crop of this layer shows, and when the true receptive field is larger.</summary>
+    public string Place { get; init; } = "";
+}
 
 public sealed record ModelSummary(
     string Path,
@@ -49,7 +56,11 @@ public sealed record ModelSummary(
     string ChannelOrder,
     IReadOnlyList<string> ClassNames,
     string BatchMode,
-    IReadOnlyList<LayerSummary> Layers);
+    IReadOnlyList<LayerSummary> Layers)
+{
+    /// <summary>What the intake changed or assumed about the model (channels-last input, normalisation inside the graph, one binary output).</summary>
+    public IReadOnlyList<string> Notes { get; init; } = [];
+}
 
 public sealed record ValueCount(string Value, int Count);
 

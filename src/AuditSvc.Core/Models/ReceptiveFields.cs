@@ -64,7 +64,7 @@ public static class ReceptiveFields
 
     /// <summary>The field where every position sees the whole input image.</summary>
     public static ReceptiveField Whole(int inputHeight, int inputWidth) =>
-        new(WholeAxis(inputHeight), WholeAxis(inputWidth));
+        new(WholeAxis(inputHeight), WholeAxis(inputWidth)) { Global = true };
 
     /// <summary>
     /// Merges the fields of parallel paths (residual addition, concatenation): the union of position 0's
@@ -120,24 +120,34 @@ public static class ReceptiveFields
         return fields;
     }
 
-    /// <summary>The field of one node's output given the fields of its image-dependent inputs.</summary>
+    /// <summary>
+    /// The field of one node's output given the fields of its image-dependent inputs. A node that mixes every
+    /// position (<see cref="FieldOp.Whole"/>) sees the whole image. A node that merges a local path with one that has
+    /// seen the whole image (a squeeze-excitation gate multiplied in, an attention branch added to its residual
+    /// stream) keeps the local path's place and is marked <see cref="ReceptiveField.Global"/>: position i is still
+    /// where the local path puts it, which is what a crop can show; the true field is the whole image.
+    /// </summary>
     public static ReceptiveField Apply(FieldNode node, IReadOnlyList<ReceptiveField> inputs, ReceptiveField whole)
     {
         ArgumentNullException.ThrowIfNull(node);
         ArgumentNullException.ThrowIfNull(inputs);
-        // Once a path has seen the whole image, everything downstream of it has too.
-        if (node.Op == FieldOp.Whole || inputs.Any(f => ReferenceEquals(f, whole) || f == whole)) return whole;
-        var merged = inputs[0];
-        if (inputs.Count > 1)
+        ArgumentNullException.ThrowIfNull(whole);
+        if (node.Op == FieldOp.Whole) return whole;
+        var local = inputs.Where(f => f != whole).ToList();
+        if (local.Count == 0) return whole;
+        bool global = local.Count < inputs.Count || local.Any(f => f.Global);
+        var merged = local[0];
+        if (local.Count > 1)
         {
-            var y = Merge(inputs.Select(f => f.Y).ToArray());
-            var x = Merge(inputs.Select(f => f.X).ToArray());
+            var y = Merge(local.Select(f => f.Y).ToArray());
+            var x = Merge(local.Select(f => f.X).ToArray());
             if (y is null || x is null) return whole;
             merged = new ReceptiveField(y.Value, x.Value);
         }
+        merged = merged with { Global = global };
         if (node.Op == FieldOp.Elementwise) return merged;
         return new ReceptiveField(
             Window(merged.Y, node.Kernel[0], node.Stride[0], node.PadBegin[0], node.Dilation[0]),
-            Window(merged.X, node.Kernel[1], node.Stride[1], node.PadBegin[1], node.Dilation[1]));
+            Window(merged.X, node.Kernel[1], node.Stride[1], node.PadBegin[1], node.Dilation[1])) { Global = global };
     }
 }

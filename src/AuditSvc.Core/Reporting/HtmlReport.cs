@@ -67,8 +67,13 @@ public static partial class HtmlReport
           .Append("<dt>Input</dt><dd>").Append(m.InputWidth).Append(" × ").Append(m.InputHeight).Append(", ").Append(E(m.Resize))
           .Append(", ").Append(E(m.ChannelOrder)).Append("</dd>")
           .Append("<dt>Classes</dt><dd>").Append(E(string.Join(", ", m.ClassNames))).Append("</dd>")
-          .Append("<dt>Layers read</dt><dd>").Append(Int(m.Layers.Count)).Append(" (").Append(Int(r.Pass.Units)).Append(" units)</dd>")
-          .Append("</dl></div>\n");
+          .Append("<dt>Layers read</dt><dd>").Append(Int(m.Layers.Count)).Append(" (").Append(Int(r.Pass.Units)).Append(" units)</dd>");
+        // Crops that are not the whole story: token patches under attention, places fed by a global gate.
+        foreach (var g in m.Layers.Where(l => l.Layout != "vector" && l.Place.Length > 0 && l.Place != "receptive field of the peak position").GroupBy(l => (l.Layout, l.Place)))
+            sb.Append("<dt>Crops</dt><dd>").Append(Int(g.Count())).Append(' ').Append(E(g.Key.Layout)).Append(" layer").Append(g.Count() == 1 ? "" : "s")
+              .Append(": ").Append(E(g.Key.Place)).Append("</dd>");
+        foreach (var note in m.Notes) sb.Append("<dt>Intake</dt><dd>").Append(E(note)).Append("</dd>");
+        sb.Append("</dl></div>\n");
         sb.Append("<div class=\"card\"><h2>Image set</h2><dl>")
           .Append("<dt>Source</dt><dd class=\"mono\">").Append(E(s.Source)).Append("</dd>")
           .Append("<dt>Images used</dt><dd><strong>").Append(Int(s.RowsUsed)).Append("</strong> of ").Append(Int(s.RowsRead)).Append(" rows</dd>")

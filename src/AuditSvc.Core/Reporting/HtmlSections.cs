@@ -23,7 +23,18 @@ public static partial class HtmlReport
         {
             sb.Append("<tr><td><strong>").Append(E(a.Name)).Append("</strong>");
             if (a.Note is not null) sb.Append("<div class=\"note\">").Append(E(a.Note)).Append("</div>");
-            sb.Append("<div class=\"muted small\">").Append(Int(a.Tests)).Append(" tests, ").Append(Int(a.Findings)).Append(" findings</div></td>")
+            sb.Append("<div class=\"muted small\">").Append(Int(a.Tests)).Append(" tests, ").Append(Int(a.Findings)).Append(" findings</div>");
+            if (r.ImageSet.Attributes.FirstOrDefault(x => x.Name == a.Name) is { } column)
+            {
+                // How a number became values, and what happened to empty cells: a reviewer must see both to read the findings.
+                if (column.Numeric)
+                    sb.Append("<div class=\"muted small\">numeric column, binned into ").Append(Int(column.Values.Count))
+                      .Append(" equal-count bins at the set's quartiles: ").Append(E(string.Join(", ", column.Values.Select(v => v.Value)))).Append("</div>");
+                if (column.Missing > 0)
+                    sb.Append("<div class=\"muted small\">").Append(Int(column.Missing)).Append(" empty cell").Append(column.Missing == 1 ? "" : "s")
+                      .Append(": missing, left out of this attribute's tests (not a value)</div>");
+            }
+            sb.Append("</td>")
               .Append("<td class=\"num\">").Append(Num(a.CramersV)).Append("</td>")
               .Append("<td>").Append(a.Confounded ? "<span class=\"tag warn\">yes</span>" : "no").Append("</td>")
               .Append("<td>").Append(a.Allowed ? "<span class=\"tag\">allowed</span>" : "no").Append("</td>")

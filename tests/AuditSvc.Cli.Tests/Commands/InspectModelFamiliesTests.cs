@@ -1,0 +1,34 @@
+using System.Text.Json.Nodes;
+
+namespace AuditSvc.Cli.Tests.Commands;
+
+/// <summary>`inspect` on the random-weight fixtures of tests/models: what it reads, in which layout, and why.</summary>
+public class InspectModelFamiliesTests
+{
+    internal static string Fixture(string name) => Path.Combine(AppContext.BaseDirectory, "model-fixtures", name + ".onnx");
+
+    [Fact]
+    public void Inspect_VisionTransformer_SaysTokensArePatchesAndAttentionSeesAll()
+    {
+        var (status, stdout, stderr) = CliProcess.Run("inspect", "--model", Fixture("vit"));
+        Assert.True(status == 0, stderr);
+        Assert.Contains("tokens", stdout);
+        Assert.Contains("attention makes its true receptive field the whole image", stdout);
+        Assert.Contains("not read", stdout);
+        Assert.Contains("from node '/blocks/blocks.0/attn/MatMul_1'", stdout);
+    }
+
+    [Fact]
+    public void Inspect_ChannelsLastBlocksAndNormalisedInput_Json()
+    {
+        var (status, stdout, stderr) = CliProcess.Run("inspect", "--model", Fixture("convnext"), "--json");
+        Assert.True(status == 0, stderr);
+        var layers = JsonNode.Parse(stdout)!["layers"]!.AsArray();
+        Assert.Contains(layers, l => (string)l!["layout"]! == "channels-last" && (string)l["name"]! == "/s1/norm/LayerNormalization_output_0");
+
+        (status, stdout, stderr) = CliProcess.Run("inspect", "--model", Fixture("mobilenetv3-normalised"));
+        Assert.True(status == 0, stderr);
+        Assert.Contains("normalises its own input", stdout);
+        Assert.Contains("+global", stdout);
+    }
+}
