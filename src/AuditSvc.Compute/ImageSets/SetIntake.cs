@@ -150,6 +150,8 @@ public static class SetIntake
     {
         var problems = new List<IntakeProblem>();
         var labels = classNames?.ToList() ?? InferLabels(rows);
+        if (labels.GroupBy(l => l, StringComparer.Ordinal).FirstOrDefault(g => g.Count() > 1) is { } twice)
+            throw new AuditInputException("class names", $"'{twice.Key}' is given {twice.Count()} times (--labels or class_names in the model's recipe): each output needs its own name");
         var labelIndex = labels.Select((l, i) => (l, i)).ToDictionary(t => t.l, t => t.i, StringComparer.Ordinal);
         var seen = new HashSet<string>(StringComparer.Ordinal);
         var candidates = new List<(RawRow Row, string Full, int Label)>();
