@@ -120,16 +120,40 @@ public sealed class ArtifactStore(IOptions<ServiceOptions> options)
         }
     }
 
-    /// <summary>Resolves a folder given relative to the root; refuses anything outside the root.</summary>
-    public string ResolveFolder(string relative, string field)
+    /// <summary>The team's drop folder: files put on the machine for a team go under incoming/&lt;team&gt;/.</summary>
+    public const string Incoming = "incoming";
+
+    /// <summary>
+    /// A folder a team may register: inside its own drop folder (incoming/&lt;team&gt;/) or inside one of its own
+    /// uploads (<paramref name="ownsUpload"/> asks the database). The real path, every link followed, must stay in
+    /// that folder. Every refusal gives the same answer, whether the folder exists, is another team's or lies
+    /// outside the root, so nothing can be learnt about what is there. Returns the path relative to the root.
+    /// </summary>
+    public async Task<string> ResolveTeamFolderAsync(string? relative, string? teamName, Func<string, Task<bool>> ownsUpload, string field)
     {
         if (string.IsNullOrWhiteSpace(relative)) throw new AuditInputException(field, "is required");
+        var refused = new AuditInputException(field,
+            $"no folder of this team at that path: register a folder under {Incoming}/<team>/ or inside the team's own uploads");
+        if (Path.IsPathRooted(relative) || relative.Contains('\\', StringComparison.Ordinal)) throw refused;
         var full = Path.GetFullPath(Path.Combine(Root, relative));
-        if (!full.StartsWith(Root + Path.DirectorySeparatorChar, StringComparison.Ordinal))
-            throw new AuditInputException(field, $"'{relative}' is not inside the artifact root");
-        if (!Directory.Exists(full)) throw new AuditInputException(field, $"folder '{relative}' does not exist under the artifact root");
-        return Path.GetRelativePath(Root, full);
+        if (!full.StartsWith(Root + Path.DirectorySeparatorChar, StringComparison.Ordinal)) throw refused;
+        var rel = Path.GetRelativePath(Root, full).Replace(Path.DirectorySeparatorChar, '/');
+        string? owned = null;
+        if (IsSafeSegment(teamName) && (rel == $"{Incoming}/{teamName}" || rel.StartsWith($"{Incoming}/{teamName}/", StringComparison.Ordinal)))
+            owned = Path.Combine(Root, Incoming, teamName!);
+        else if (await ownsUpload(rel))
+            owned = full;
+        if (owned is null) throw refused;
+        var realOwned = Compute.ImageSets.PathContainment.RealPath(owned);
+        var real = Compute.ImageSets.PathContainment.RealPath(full);
+        if (realOwned is null || real is null || !(real == realOwned || real.StartsWith(realOwned + Path.DirectorySeparatorChar, StringComparison.Ordinal))
+            || !Directory.Exists(real))
+            throw refused;
+        return rel;
     }
+
+    private static bool IsSafeSegment(string? name) =>
+        !string.IsNullOrEmpty(name) && name is not ("." or "..") && name.All(c => char.IsAsciiLetterOrDigit(c) || c is '-' or '_' or '.');
 
     public string FullPath(string relative) => Path.Combine(Root, relative);
 

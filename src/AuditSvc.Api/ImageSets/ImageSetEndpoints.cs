@@ -25,7 +25,8 @@ public sealed record ImageSetResponse(Guid Id, string Name, string ContentHash, 
 }
 
 /// <summary>
-/// Registers a folder that already sits under the artifact root (path relative to it). With a model id, labels
+/// Registers a folder the team put under the artifact root (path relative to it): inside incoming/&lt;team&gt;/ or
+/// inside one of its own uploads. With a model id, labels
 /// are read against that model's class names (needed when labels are names rather than output indices).
 /// </summary>
 public sealed record RegisterFolder(string? Path, string? Name, Guid? ModelId);
@@ -40,7 +41,7 @@ public static class ImageSetEndpoints
             .WithSummary("Upload a .zip image set (form part 'archive', optional fields 'name' and 'modelId'); returns the intake report.")
             .ProducesValidationProblem();
         group.MapPost("/folder", Register)
-            .WithSummary("Register a folder under the artifact root as an image set; returns the intake report.")
+            .WithSummary("Register a folder of this team (under incoming/<team>/ or inside its own uploads) as an image set; returns the intake report.")
             .ProducesValidationProblem();
         group.MapGet("/", List);
         group.MapGet("/{id:guid}", Get);
@@ -64,7 +65,8 @@ public static class ImageSetEndpoints
         IAuditEngine engine, ImageSetStore sets, ModelStore models, CancellationToken ct)
     {
         var classNames = await ClassNamesAsync(http, models, body.ModelId, ct);
-        var folder = artifacts.ResolveFolder(body.Path ?? "", "path");
+        var team = http.User.TeamId();
+        var folder = await artifacts.ResolveTeamFolderAsync(body.Path, http.User.TeamName(), rel => sets.OwnsFolderAsync(team, rel, ct), "path");
         return await AddAsync(http, artifacts, engine, sets, body.Name is { Length: > 0 } n ? n : folder, folder, null, classNames, ct);
     }
 
