@@ -5,6 +5,7 @@ using AuditSvc.Api.Artifacts;
 using AuditSvc.Api.Auth;
 using AuditSvc.Api.Engine;
 using AuditSvc.Api.Hosting;
+using AuditSvc.Compute.ImageSets;
 using AuditSvc.Core;
 using AuditSvc.Core.ImageSets;
 using AuditSvc.Data.ImageSets;
@@ -52,13 +53,24 @@ public static class ImageSetEndpoints
         ImageSetStore sets, ModelStore models, IOptions<ServiceOptions> options, CancellationToken ct)
     {
         var form = await MultipartUpload.ReadAsync(request, "archive", ".zip", artifacts, options.Value.MaxUploadBytes, ct);
-        Guid? modelId = null;
-        if (form.Fields.GetValueOrDefault("modelId") is { Length: > 0 } m)
-            modelId = Guid.TryParse(m, out var g) ? g : throw new AuditInputException("modelId", $"'{m}' is not a model id");
-        var classNames = await ClassNamesAsync(request.HttpContext, models, modelId, ct);
-        var folder = artifacts.Unpack(form.File, "archive");
-        var name = form.Fields.GetValueOrDefault("name") is { Length: > 0 } n ? n : "image set";
-        return await AddAsync(request.HttpContext, artifacts, engine, sets, name, folder, form.File.ContentHash, classNames, ct);
+        string? createdFolder = null;
+        try
+        {
+            Guid? modelId = null;
+            if (form.Fields.GetValueOrDefault("modelId") is { Length: > 0 } m)
+                modelId = Guid.TryParse(m, out var g) ? g : throw new AuditInputException("modelId", $"'{m}' is not a model id");
+            var classNames = await ClassNamesAsync(request.HttpContext, models, modelId, ct);
+            var (folder, created) = artifacts.Unpack(form.File, "archive", new ZipLimits(), ct);
+            if (created) createdFolder = folder;
+            var name = form.Fields.GetValueOrDefault("name") is { Length: > 0 } n ? n : "image set";
+            return await AddAsync(request.HttpContext, artifacts, engine, sets, name, folder, form.File.ContentHash, classNames, ct);
+        }
+        catch
+        {
+            // A rejected (or cancelled) upload leaves nothing behind that it alone put there.
+            artifacts.Discard(form.File, createdFolder);
+            throw;
+        }
     }
 
     private static async Task<Created<ImageSetResponse>> Register(RegisterFolder body, HttpContext http, ArtifactStore artifacts,

@@ -1,5 +1,4 @@
 using System.Globalization;
-using System.IO.Compression;
 using System.Security.Cryptography;
 using AuditSvc.Core;
 using AuditSvc.Core.ImageSets;
@@ -54,25 +53,7 @@ public static class SetIntake
     private static string Unzip(string zip, string extractRoot)
     {
         var target = Path.Combine(extractRoot, "set-" + Path.GetFileNameWithoutExtension(zip) + "-" + Guid.NewGuid().ToString("N")[..8]);
-        Directory.CreateDirectory(target);
-        try
-        {
-            using var archive = ZipFile.OpenRead(zip);
-            var root = Path.GetFullPath(target) + Path.DirectorySeparatorChar;
-            foreach (var entry in archive.Entries)
-            {
-                var dest = Path.GetFullPath(Path.Combine(target, entry.FullName));
-                if (!dest.StartsWith(root, StringComparison.Ordinal))
-                    throw new AuditInputException(zip, $"entry '{entry.FullName}' points outside the archive");
-                if (entry.FullName.EndsWith('/')) { Directory.CreateDirectory(dest); continue; }
-                Directory.CreateDirectory(Path.GetDirectoryName(dest)!);
-                entry.ExtractToFile(dest, overwrite: false);
-            }
-        }
-        catch (InvalidDataException e)
-        {
-            throw new AuditInputException(zip, "not a readable .zip archive", e);
-        }
+        ZipExtractor.Extract(zip, target, new ZipLimits(), zip);
         return target;
     }
 

@@ -203,3 +203,28 @@ public class EnvironmentErrorTests
         }
     }
 }
+
+/// <summary>The command line unpacks archives with the same limited extractor as the service: a refusal is exit 2 naming the entry.</summary>
+public class ZipInputTests
+{
+    [Theory]
+    [InlineData("dotdot", "../evil.png")]
+    [InlineData("symlink", "cat/link.png")]
+    [InlineData("duplicate", "appears twice")]
+    [InlineData("empty", "holds no files")]
+    [InlineData("bzip2", "only stored and deflate")]
+    [InlineData("ratio-bomb", "archive bomb")]
+    public void Audit_HostileZip_ExitsTwoNamingTheEntry(string kind, string expected)
+    {
+        var dir = CliProcess.TempDir("zip");
+        var zip = Path.Combine(dir, "set.zip");
+        File.WriteAllBytes(zip, AuditSvc.Compute.Tests.ImageSets.HostileZips.Build(kind));
+        var (status, _, stderr) = CliProcess.Run("audit", "--model", AuditSvc.Cli.Commands.DemoCommand.FindModel("fruit-cue.onnx"), "--data", zip, "--out", Path.Combine(dir, "out"));
+        Assert.True(status == 2, stderr);
+        Assert.Contains(zip, stderr);
+        Assert.Contains(expected, stderr);
+        Assert.False(File.Exists(Path.Combine(dir, "evil.png")));
+        var work = Path.Combine(dir, "out", ".work");
+        Assert.True(!Directory.Exists(work) || Directory.GetDirectories(work).Length == 0, "an unpacked folder stayed");
+    }
+}
