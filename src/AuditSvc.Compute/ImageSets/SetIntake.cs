@@ -1,5 +1,6 @@
 using System.Globalization;
 using System.Security.Cryptography;
+using AuditSvc.Compute.Imaging;
 using AuditSvc.Core;
 using AuditSvc.Core.ImageSets;
 using CsvHelper;
@@ -235,13 +236,24 @@ public static class SetIntake
         }
         try
         {
-            // Streamed: the header is identified, then the file is hashed from the same stream, never read whole.
+            // Streamed: the header is identified (size checked before any pixel is decoded), then the file is
+            // hashed from the same stream, never read whole; a JPEG is checked for an end after its last scan.
             using var stream = new FileStream(info.FullName, FileMode.Open, FileAccess.Read, FileShare.Read, 64 * 1024);
-            var image = Image.Identify(stream);
+            var image = Image.Identify(ImageDecoding.Configuration, stream, out var format);
             if (image is null) return (null, "not a decodable image (unknown format)");
-            if (image.Width < 1 || image.Height < 1) return (null, "image has no pixels");
+            if (ImageDecoding.SizeProblem(image) is { } tooLarge) return (null, tooLarge);
             stream.Position = 0;
-            return (Convert.ToHexStringLower(SHA256.HashData(stream)), null);
+            var jpeg = format is SixLabors.ImageSharp.Formats.Jpeg.JpegFormat ? new JpegCompleteness() : null;
+            using var sha = IncrementalHash.CreateHash(HashAlgorithmName.SHA256);
+            var buffer = new byte[64 * 1024];
+            int n;
+            while ((n = stream.Read(buffer)) > 0)
+            {
+                sha.AppendData(buffer, 0, n);
+                jpeg?.Feed(buffer.AsSpan(0, n));
+            }
+            if (jpeg is { Complete: false }) return (null, "truncated JPEG (the file ends inside its image data)");
+            return (Convert.ToHexStringLower(sha.GetHashAndReset()), null);
         }
         catch (Exception e) when (e is UnknownImageFormatException or InvalidImageContentException or NotSupportedException or IOException or UnauthorizedAccessException)
         {
