@@ -66,10 +66,11 @@ public static class SetIntake
         try
         {
             using var reader = new StreamReader(manifest);
-            using var csv = new CsvReader(reader, new CsvConfiguration(CultureInfo.InvariantCulture) { TrimOptions = TrimOptions.Trim, BadDataFound = null, MissingFieldFound = null, DetectColumnCountChanges = false });
+            using var csv = new CsvReader(reader, IntakeLimits.Csv());
             if (!csv.Read() || !csv.ReadHeader() || csv.HeaderRecord is null)
                 throw new AuditInputException(manifest, "empty manifest: expected a header with columns 'image' and 'label'");
             header = csv.HeaderRecord;
+            IntakeLimits.CheckHeader(manifest, header);
             int imageCol = Array.FindIndex(header, h => h.Equals("image", StringComparison.OrdinalIgnoreCase));
             int labelCol = Array.FindIndex(header, h => h.Equals("label", StringComparison.OrdinalIgnoreCase));
             if (imageCol < 0) throw new AuditInputException(manifest, "header has no 'image' column (the image path relative to the manifest)");
@@ -80,7 +81,7 @@ public static class SetIntake
             int row = 0;
             while (csv.Read())
             {
-                row++;
+                IntakeLimits.CheckRows(manifest, ++row);
                 var cells = Enumerable.Range(0, header.Length).Select(i => csv.TryGetField<string>(i, out var s) ? s ?? "" : "").ToArray();
                 rows.Add(new RawRow(row, cells[imageCol], cells[labelCol], attrCols.Select(i => cells[i]).ToArray()));
             }
@@ -102,7 +103,8 @@ public static class SetIntake
             foreach (var file in FilesUnder(labelDir))
             {
                 if (!ImageExtensions.Contains(Path.GetExtension(file).ToLowerInvariant())) continue;
-                rows.Add(new RawRow(++row, Path.GetRelativePath(root, file).Replace('\\', '/'), label, []));
+                IntakeLimits.CheckRows(root, ++row);
+                rows.Add(new RawRow(row, Path.GetRelativePath(root, file).Replace('\\', '/'), label, []));
             }
         }
         if (rows.Count == 0) throw new AuditInputException(root, $"no {ManifestName} and no class folders with images");
@@ -129,16 +131,24 @@ public static class SetIntake
 
     private static (string[] Names, Dictionary<string, string[]> Rows) ReadAttributeTable(string file)
     {
+        try { return ReadAttributeRows(file); }
+        catch (CsvHelperException e) { throw new AuditInputException(file, $"not a readable CSV file ({e.Message.Split('\n')[0]})", e); }
+    }
+
+    private static (string[] Names, Dictionary<string, string[]> Rows) ReadAttributeRows(string file)
+    {
         using var reader = new StreamReader(file);
-        using var csv = new CsvReader(reader, new CsvConfiguration(CultureInfo.InvariantCulture) { TrimOptions = TrimOptions.Trim, BadDataFound = null, MissingFieldFound = null });
+        using var csv = new CsvReader(reader, IntakeLimits.Csv());
         if (!csv.Read() || !csv.ReadHeader() || csv.HeaderRecord is null) throw new AuditInputException(file, "empty attribute file");
         var header = csv.HeaderRecord;
+        IntakeLimits.CheckHeader(file, header);
         int imageCol = Array.FindIndex(header, h => h.Equals("image", StringComparison.OrdinalIgnoreCase));
         if (imageCol < 0) throw new AuditInputException(file, "header has no 'image' column (path relative to the set's folder)");
         var cols = Enumerable.Range(0, header.Length).Where(i => i != imageCol).ToArray();
         var rows = new Dictionary<string, string[]>(StringComparer.Ordinal);
         while (csv.Read())
         {
+            IntakeLimits.CheckRows(file, rows.Count + 1);
             var image = (csv.GetField(imageCol) ?? "").Replace('\\', '/');
             rows[image] = cols.Select(i => csv.TryGetField<string>(i, out var s) ? s ?? "" : "").ToArray();
         }
@@ -198,7 +208,7 @@ public static class SetIntake
         var columns = AttributeBinning.Build(attrNames, attrCells, out var codes, out var skipped);
         problems.AddRange(skipped.Select(s => new IntakeProblem(null, s.Column, s.Reason)));
         var items = kept.Select((k, i) => new ImageItem(i, k.Row.Row, k.Full, k.Row.Image, k.Label, codes[i], k.Hash)).ToList();
-        var report = new IntakeReport(source, rows.Count, items.Count, problems.OrderBy(p => p.Row ?? 0).ToList());
+        var report = new IntakeReport(source, rows.Count, items.Count, IntakeLimits.Capped(problems.OrderBy(p => p.Row ?? 0).ToList()));
         return new ItemTable(labels, columns, items, report);
     }
 
