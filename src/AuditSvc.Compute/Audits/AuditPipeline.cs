@@ -36,6 +36,7 @@ public static class AuditPipeline
         Directory.CreateDirectory(request.WorkDirectory);
         var table = SetIntake.Read(request.DataPath, model.Plan.Recipe.ClassNames, request.WorkDirectory, request.ImagesRoot);
         CheckLabels(table, model);
+        PolicyFile.CheckAttributes(request.Policy, table.Attributes.Select(a => a.Name).ToList(), "policy");
         var passOptions = request.Pass with { SpillDirectory = request.Pass.SpillDirectory ?? Path.Combine(request.WorkDirectory, "scores") };
         using var pass = new ActivationPass(model.Plan, model.RewrittenModel, passOptions);
         stage?.Invoke(AuditStage.Pass, $"{table.Items.Count} images, {pass.Layers.Sum(l => l.Count)} units in {pass.Layers.Count} layers, batch {pass.Options.BatchSize}");
