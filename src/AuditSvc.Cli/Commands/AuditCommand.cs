@@ -18,8 +18,8 @@ internal static class AuditCommand
         var output = new Option<DirectoryInfo>("--out") { Description = "Folder for audit.json and report.html", DefaultValueFactory = _ => new DirectoryInfo("audit-out") }.MustNotBeAFile();
         var opts = new ModelFlags();
         var policy = new Option<FileInfo?>("--policy") { Description = "Policy file (JSON; see schemas/policy.schema.json)" };
-        var batch = new Option<int>("--batch") { Description = "Images per model run (0 = choose)" };
-        var threads = new Option<int>("--threads") { Description = "ONNX Runtime threads (0 = all cores)" };
+        var batch = new Option<int>("--batch") { Description = "Images per model run (0 = choose)" }.Batch();
+        var threads = new Option<int>("--threads") { Description = "ONNX Runtime threads (0 = all cores)" }.Threads();
         var imagesRoot = new Option<DirectoryInfo?>("--images-root")
         {
             Description = "A folder manifest rows may also lead into (absolute paths included); without it, rows stay inside the manifest's folder",

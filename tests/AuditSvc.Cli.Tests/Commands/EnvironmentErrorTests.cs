@@ -228,3 +228,26 @@ public class ZipInputTests
         Assert.True(!Directory.Exists(work) || Directory.GetDirectories(work).Length == 0, "an unpacked folder stayed");
     }
 }
+
+/// <summary>Counts given on the command line are bounded.</summary>
+public class CountOptionTests
+{
+    [Theory]
+    [InlineData("--threads", "100000")]
+    [InlineData("--threads", "-1")]
+    [InlineData("--batch", "1000000")]
+    public void Audit_CountOutOfRange_ExitsTwoNamingTheOption(string option, string value)
+    {
+        var (status, _, stderr) = CliProcess.Run("audit", "--model", "m.onnx", "--data", "d.csv", option, value);
+        Assert.Equal(2, status);
+        Assert.Contains($"{option}: {value} is out of range", stderr);
+    }
+
+    [Fact]
+    public void Bench_ThreadsOutOfRange_ExitsTwo()
+    {
+        var (status, _, stderr) = CliProcess.Run("bench", "--threads", "4096");
+        Assert.Equal(2, status);
+        Assert.Contains("--threads", stderr);
+    }
+}
