@@ -36,7 +36,8 @@ public sealed class ArtifactStore(IOptions<ServiceOptions> options)
                 {
                     length += n;
                     if (length > maxBytes)
-                        throw new AuditInputException(field, $"upload is larger than the limit of {maxBytes} bytes (AUDITSVC_MAX_UPLOAD_BYTES)");
+                        throw new Microsoft.AspNetCore.Http.BadHttpRequestException(
+                            $"{field}: upload is larger than the limit of {maxBytes} bytes (AUDITSVC_MAX_UPLOAD_BYTES)", Microsoft.AspNetCore.Http.StatusCodes.Status413PayloadTooLarge);
                     sha.AppendData(buffer, 0, n);
                     await file.WriteAsync(buffer.AsMemory(0, n), ct);
                 }
