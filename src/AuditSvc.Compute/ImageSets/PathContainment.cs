@@ -12,15 +12,19 @@ public sealed class PathContainment
 
     private const int MaxLinks = 40; // Linux's own limit on links followed in one lookup (common practice)
 
-    private readonly string[] _roots;
+    private readonly string[] _roots, _realRoots;
 
-    /// <param name="roots">Absolute folders rows may lead into; each is itself resolved to its real path.</param>
+    /// <param name="roots">Absolute folders rows may lead into. The text of a row is checked against them as given,
+    /// where it really leads against their real paths (a root may itself be reached through a link).</param>
     public PathContainment(IEnumerable<string> roots)
     {
-        _roots = roots.Select(r => RealPath(Path.GetFullPath(r)) ?? Path.GetFullPath(r))
-            .Select(r => r.TrimEnd(Path.DirectorySeparatorChar) + Path.DirectorySeparatorChar)
-            .Distinct(StringComparer.Ordinal).ToArray();
+        var given = roots.Select(Path.GetFullPath).ToList();
+        _roots = Folders(given);
+        _realRoots = Folders(given.Select(r => RealPath(r) ?? r));
     }
+
+    private static string[] Folders(IEnumerable<string> paths) =>
+        paths.Select(r => r.TrimEnd(Path.DirectorySeparatorChar) + Path.DirectorySeparatorChar).Distinct(StringComparer.Ordinal).ToArray();
 
     /// <summary>
     /// The real path a row names, or null when it leads outside every allowed folder. A row is first checked as
@@ -34,12 +38,12 @@ public sealed class PathContainment
         var rel = row.Replace('\\', '/');
         if (Path.IsPathRooted(rel) && !allowAbsolute) return null;
         var full = Path.GetFullPath(Path.Combine(baseDir, rel));
-        if (!Inside(full)) return null;
+        if (!Inside(_roots, full)) return null;
         var real = RealPath(full);
-        return real is not null && Inside(real) ? real : null;
+        return real is not null && Inside(_realRoots, real) ? real : null;
     }
 
-    private bool Inside(string full) => _roots.Any(r => full.StartsWith(r, StringComparison.Ordinal));
+    private static bool Inside(string[] roots, string full) => roots.Any(r => full.StartsWith(r, StringComparison.Ordinal));
 
     /// <summary>The path with every link resolved (a missing last part is kept as named); null on a link loop.</summary>
     public static string? RealPath(string fullPath)

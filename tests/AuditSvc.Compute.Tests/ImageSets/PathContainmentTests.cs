@@ -91,6 +91,17 @@ public class PathContainmentTests
     }
 
     [Fact]
+    public void Read_SetReachedThroughALink_IsReadNormally()
+    {
+        var real = NewDir("real-set");
+        var via = Path.Combine(NewDir("via"), "set");
+        File.CreateSymbolicLink(via, real);
+        var (t, reasons) = Intake(via, ["sub/../good.png"]);
+        Assert.Single(t.Items);
+        Assert.Contains("duplicate path", reasons[2]);
+    }
+
+    [Fact]
     public void Read_WithImagesRoot_AbsoluteRowsUnderItAreRead()
     {
         var images = NewDir("images-root");
