@@ -9,7 +9,7 @@ namespace AuditSvc.Cli.Commands;
 /// missing, a full disk) are not bugs: each gets one line naming what failed and what to do, and exit 2.
 /// Messages name hosts, ports and databases, never a connection string (it may hold a password).
 /// </summary>
-internal static class EnvironmentErrors
+public static class EnvironmentErrors
 {
     /// <summary>The one-line explanation of an environment failure, or null when <paramref name="e"/> is something else.</summary>
     public static string? Explain(Exception e)
@@ -19,7 +19,7 @@ internal static class EnvironmentErrors
             switch (x)
             {
                 case PostgresException pg:
-                    return Postgres(pg);
+                    return Postgres(pg); // null for SQL errors that are bugs (syntax, constraints …): exit 3
                 case NpgsqlException np when Find<SocketException>(np) is { } s:
                     return $"cannot reach PostgreSQL ({FirstLine(np.Message)}: {s.Message}): start it, or point AUDITSVC_DB / --db at a running server";
                 case NpgsqlException np when Find<TimeoutException>(np) is not null:
@@ -37,7 +37,7 @@ internal static class EnvironmentErrors
         return null;
     }
 
-    private static string Postgres(PostgresException pg) => pg.SqlState switch
+    private static string? Postgres(PostgresException pg) => pg.SqlState switch
     {
         // Class 28: invalid authorisation; 3D000: invalid catalog name; 42501: insufficient privilege.
         "28P01" or "28000" => $"PostgreSQL refused the login ({pg.MessageText}): check the user and password in AUDITSVC_DB / --db",
@@ -45,7 +45,9 @@ internal static class EnvironmentErrors
         "42501" => $"PostgreSQL refused an operation ({pg.MessageText}): the user needs rights on the database (and CREATEDB for `migrate` to create it)",
         "53100" => $"PostgreSQL's disk is full ({pg.MessageText}): free space on the database server",
         "57P03" or "57P01" or "53300" => $"PostgreSQL is not accepting connections now ({pg.MessageText}): retry when it is up",
-        _ => $"PostgreSQL answered {pg.SqlState} ({pg.MessageText})",
+        // Classes 08 (connection), 53 (resources), 57 (operator intervention), 58 (system): the server's state, not ours.
+        var state when state[..2] is "08" or "53" or "57" or "58" => $"PostgreSQL answered {pg.SqlState} ({pg.MessageText}): check the server and retry",
+        _ => null,
     };
 
     // ENOSPC (28) and EDQUOT (122) on Linux; ERROR_DISK_FULL / ERROR_HANDLE_DISK_FULL on Windows.

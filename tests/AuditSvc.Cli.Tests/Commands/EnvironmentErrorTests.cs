@@ -251,3 +251,21 @@ public class CountOptionTests
         Assert.Contains("--threads", stderr);
     }
 }
+
+/// <summary>Only failures of the environment are explained away; an SQL error of our own stays a bug (exit 3).</summary>
+public class EnvironmentErrorsTests
+{
+    [Theory]
+    [InlineData("42601", null)]        // syntax error: our SQL is wrong
+    [InlineData("23505", null)]        // unique violation: our logic is wrong
+    [InlineData("3D000", "auditsvc migrate")]
+    [InlineData("28P01", "refused the login")]
+    [InlineData("57P03", "not accepting connections")]
+    [InlineData("08006", "check the server")]
+    public void Explain_PostgresState_OnlyEnvironmentIsExplained(string state, string? expected)
+    {
+        var why = AuditSvc.Cli.Commands.EnvironmentErrors.Explain(new Npgsql.PostgresException("text", "ERROR", "ERROR", state));
+        if (expected is null) Assert.Null(why);
+        else Assert.Contains(expected, why, StringComparison.Ordinal);
+    }
+}
