@@ -83,18 +83,20 @@ public static class PolicyFile
     /// <summary>
     /// Attribute names in the policy must name columns of the image set (or the inferred place cues, "place:…"):
     /// a misspelt allowed attribute would otherwise silently block, a misspelt threshold silently not apply.
+    /// A set without any attribute column is not checked: one release policy serves bare sets too, and there is
+    /// nothing there a name could be a misspelling of.
     /// </summary>
     public static void CheckAttributes(AuditPolicy p, IReadOnlyCollection<string> columns, string source)
     {
         ArgumentNullException.ThrowIfNull(p);
         ArgumentNullException.ThrowIfNull(columns);
+        if (columns.Count == 0) return;
         var named = p.AllowedAttributes.Select(a => ("allowed_attributes", a)).Concat(p.AttributeThresholds.Keys.Select(a => ("attribute_thresholds", a)));
         foreach (var (field, name) in named)
         {
             if (name.StartsWith("place:", StringComparison.Ordinal) || columns.Contains(name, StringComparer.OrdinalIgnoreCase)) continue;
             var closest = columns.OrderBy(c => EditDistance(c.ToLowerInvariant(), name.ToLowerInvariant())).ThenBy(c => c, StringComparer.Ordinal).FirstOrDefault();
-            throw new AuditInputException(source, $"field '{field}' names '{name}', which is no attribute column of the image set"
-                + (closest is null ? " (the set has no attribute columns)" : $" (closest: '{closest}')"));
+            throw new AuditInputException(source, $"field '{field}' names '{name}', which is no attribute column of the image set (closest: '{closest}')");
         }
     }
 

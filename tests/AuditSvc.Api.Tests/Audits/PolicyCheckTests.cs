@@ -6,11 +6,11 @@ using AuditSvc.Data.Tests;
 
 namespace AuditSvc.Api.Tests.Audits;
 
-/// <summary>A submitted policy is checked against the image set's columns before anything is queued.</summary>
+/// <summary>A submitted policy is checked (types, duplicate keys, and names against the set's columns when it has any) before anything is queued.</summary>
 public class PolicyCheckTests
 {
     [PgTheory]
-    [InlineData("""{ "allowed_attributes": ["site"] }""", "no attribute columns")]
+    [InlineData("""{ "allowed_attributes": [["site"]] }""", "allowed_attributes")]
     [InlineData("""{ "leakage_threshold": 0.2, "leakage_threshold": 0.9 }""", "leakage_threshold")]
     [InlineData("""{ "min_auroc": "high" }""", "min_auroc")]
     public async Task Submit_BadPolicy_Is400NamingPolicy(string policy, string expected)

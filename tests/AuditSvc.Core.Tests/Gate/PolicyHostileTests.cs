@@ -49,9 +49,7 @@ public class PolicyHostileTests
             ["stamp", "belt"], "policy");
 
     [Fact]
-    public void CheckAttributes_SetWithoutColumns_SaysSo()
-    {
-        var e = Assert.Throws<AuditInputException>(() => PolicyFile.CheckAttributes(PolicyFile.Parse("""{ "allowed_attributes": ["site"] }"""), [], "policy"));
-        Assert.Contains("no attribute columns", e.Message, StringComparison.Ordinal);
-    }
+    public void CheckAttributes_SetWithoutColumns_IsNotChecked() =>
+        // One release policy serves bare sets too (the demo's bare audit allows defect_area): nothing to misspell there.
+        PolicyFile.CheckAttributes(PolicyFile.Parse("""{ "allowed_attributes": ["site"] }"""), [], "policy");
 }
