@@ -31,6 +31,7 @@ public static class ServiceHost
             .AddApiKeyAuth()
             .AddReviewPages(settings)
             .AddAuditProblems()
+            .AddKeyRateLimits(settings)
             .AddOpenApi();
         builder.WebHost.ConfigureKestrel(k => k.Limits.MaxRequestBodySize = settings.MaxUploadBytes);
 
@@ -38,9 +39,10 @@ public static class ServiceHost
         app.UseAuditProblems();
         app.UseAuthentication();
         app.UseAuthorization();
+        app.UseRateLimiter();
         app.MapOpenApi();
         app.MapGet("/health", HealthAsync).AllowAnonymous().ExcludeFromDescription();
-        app.MapGroup("/api").RequireAuthorization("team")
+        app.MapGroup("/api").RequireAuthorization("team").RequireRateLimiting(KeyRateLimits.Policy)
             .MapModels()
             .MapImageSets()
             .MapAudits()

@@ -12,3 +12,13 @@ public sealed class PgFactAttribute : FactAttribute
             Skip = "AUDITSVC_TEST_DB is not set: run tests/run.sh, which starts a private PostgreSQL for the tests.";
     }
 }
+
+/// <summary>A theory that needs the PostgreSQL cluster, skipped or failed exactly like <see cref="PgFactAttribute"/>.</summary>
+public sealed class PgTheoryAttribute : TheoryAttribute
+{
+    public PgTheoryAttribute()
+    {
+        if (TestDatabase.AdminConnectionString is null && !TestDatabase.InCi)
+            Skip = "AUDITSVC_TEST_DB is not set: run tests/run.sh, which starts a private PostgreSQL for the tests.";
+    }
+}

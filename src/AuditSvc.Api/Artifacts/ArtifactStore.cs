@@ -1,13 +1,14 @@
-using System.IO.Compression;
 using System.Security.Cryptography;
 using AuditSvc.Api.Hosting;
+using AuditSvc.Compute.ImageSets;
 using AuditSvc.Core;
 using Microsoft.Extensions.Options;
 
 namespace AuditSvc.Api.Artifacts;
 
 /// <summary>A file stored under the artifact root by the SHA-256 of its content.</summary>
-public sealed record StoredArtifact(string ContentHash, string RelativePath, string FullPath, long Length);
+/// <param name="Created">This upload put the blob in place (an identical earlier upload had not).</param>
+public sealed record StoredArtifact(string ContentHash, string RelativePath, string FullPath, long Length, bool Created = false);
 
 /// <summary>
 /// Content-addressed files under the artifact root: an upload is streamed to a scratch file while it is
@@ -35,7 +36,8 @@ public sealed class ArtifactStore(IOptions<ServiceOptions> options)
                 {
                     length += n;
                     if (length > maxBytes)
-                        throw new AuditInputException(field, $"upload is larger than the limit of {maxBytes} bytes (AUDITSVC_MAX_UPLOAD_BYTES)");
+                        throw new Microsoft.AspNetCore.Http.BadHttpRequestException(
+                            $"{field}: upload is larger than the limit of {maxBytes} bytes (AUDITSVC_MAX_UPLOAD_BYTES)", Microsoft.AspNetCore.Http.StatusCodes.Status413PayloadTooLarge);
                     sha.AppendData(buffer, 0, n);
                     await file.WriteAsync(buffer.AsMemory(0, n), ct);
                 }
@@ -46,8 +48,13 @@ public sealed class ArtifactStore(IOptions<ServiceOptions> options)
             var full = Path.Combine(Root, relative);
             Directory.CreateDirectory(Path.GetDirectoryName(full)!);
             // Same bytes already stored: keep the first copy (a concurrent identical upload may win the move too).
-            if (!File.Exists(full)) File.Move(temp, full, overwrite: true);
-            return new StoredArtifact("sha256:" + hash, relative, full, length);
+            bool created = false;
+            if (!File.Exists(full))
+            {
+                try { File.Move(temp, full, overwrite: false); created = true; }
+                catch (IOException) when (File.Exists(full)) { /* a concurrent identical upload won the move */ }
+            }
+            return new StoredArtifact("sha256:" + hash, relative, full, length, created);
         }
         finally
         {
@@ -57,37 +64,34 @@ public sealed class ArtifactStore(IOptions<ServiceOptions> options)
 
     /// <summary>
     /// Unpacks a stored zip once into sets/&lt;hash&gt;/ (via a scratch folder and a rename, so a half-written
-    /// folder is never seen); refuses entries that would land outside it.
+    /// folder is never seen) with the shared, limited extractor. Returns the folder relative to the root and
+    /// whether this call made it (so a rejected upload can remove what it alone left).
     /// </summary>
-    public string Unpack(StoredArtifact zip, string field)
+    public (string Relative, bool Created) Unpack(StoredArtifact zip, string field, ZipLimits limits, CancellationToken ct)
     {
         var relative = Path.Combine("sets", zip.ContentHash.Replace("sha256:", "", StringComparison.Ordinal));
         var target = Path.Combine(Root, relative);
-        if (Directory.Exists(target)) return relative;
+        if (Directory.Exists(target)) return (relative, false);
         var temp = Path.Combine(Root, "scratch", Guid.NewGuid().ToString("N"));
         try
         {
-            using (var archive = OpenZip(zip.FullPath, field))
-            {
-                foreach (var entry in archive.Entries)
-                {
-                    var dest = Path.GetFullPath(Path.Combine(temp, entry.FullName));
-                    if (!dest.StartsWith(temp + Path.DirectorySeparatorChar, StringComparison.Ordinal))
-                        throw new AuditInputException($"{field}: {entry.FullName}", "zip entry points outside the archive");
-                    if (entry.FullName.EndsWith('/')) { Directory.CreateDirectory(dest); continue; }
-                    Directory.CreateDirectory(Path.GetDirectoryName(dest)!);
-                    entry.ExtractToFile(dest);
-                }
-            }
+            ZipExtractor.Extract(zip.FullPath, temp, limits, field, ct);
             Directory.CreateDirectory(Path.GetDirectoryName(target)!);
             try { Directory.Move(temp, target); }
-            catch (IOException) when (Directory.Exists(target)) { /* an identical upload unpacked first */ }
-            return relative;
+            catch (IOException) when (Directory.Exists(target)) { return (relative, false); /* an identical upload unpacked first */ }
+            return (relative, true);
         }
         finally
         {
             if (Directory.Exists(temp)) Directory.Delete(temp, recursive: true);
         }
+    }
+
+    /// <summary>Removes what a rejected upload alone created: its blob and its unpacked folder.</summary>
+    public void Discard(StoredArtifact? blob, string? createdFolder)
+    {
+        if (createdFolder is not null && Directory.Exists(FullPath(createdFolder))) Directory.Delete(FullPath(createdFolder), recursive: true);
+        if (blob is { Created: true } && File.Exists(blob.FullPath)) File.Delete(blob.FullPath);
     }
 
     /// <summary>
@@ -120,22 +124,40 @@ public sealed class ArtifactStore(IOptions<ServiceOptions> options)
         }
     }
 
-    /// <summary>Resolves a folder given relative to the root; refuses anything outside the root.</summary>
-    public string ResolveFolder(string relative, string field)
+    /// <summary>The team's drop folder: files put on the machine for a team go under incoming/&lt;team&gt;/.</summary>
+    public const string Incoming = "incoming";
+
+    /// <summary>
+    /// A folder a team may register: inside its own drop folder (incoming/&lt;team&gt;/) or inside one of its own
+    /// uploads (<paramref name="ownsUpload"/> asks the database). The real path, every link followed, must stay in
+    /// that folder. Every refusal gives the same answer, whether the folder exists, is another team's or lies
+    /// outside the root, so nothing can be learnt about what is there. Returns the path relative to the root.
+    /// </summary>
+    public async Task<string> ResolveTeamFolderAsync(string? relative, string? teamName, Func<string, Task<bool>> ownsUpload, string field)
     {
         if (string.IsNullOrWhiteSpace(relative)) throw new AuditInputException(field, "is required");
+        var refused = new AuditInputException(field,
+            $"no folder of this team at that path: register a folder under {Incoming}/<team>/ or inside the team's own uploads");
+        if (Path.IsPathRooted(relative) || relative.Contains('\\', StringComparison.Ordinal)) throw refused;
         var full = Path.GetFullPath(Path.Combine(Root, relative));
-        if (!full.StartsWith(Root + Path.DirectorySeparatorChar, StringComparison.Ordinal))
-            throw new AuditInputException(field, $"'{relative}' is not inside the artifact root");
-        if (!Directory.Exists(full)) throw new AuditInputException(field, $"folder '{relative}' does not exist under the artifact root");
-        return Path.GetRelativePath(Root, full);
+        if (!full.StartsWith(Root + Path.DirectorySeparatorChar, StringComparison.Ordinal)) throw refused;
+        var rel = Path.GetRelativePath(Root, full).Replace(Path.DirectorySeparatorChar, '/');
+        string? owned = null;
+        if (IsSafeSegment(teamName) && (rel == $"{Incoming}/{teamName}" || rel.StartsWith($"{Incoming}/{teamName}/", StringComparison.Ordinal)))
+            owned = Path.Combine(Root, Incoming, teamName!);
+        else if (await ownsUpload(rel))
+            owned = full;
+        if (owned is null) throw refused;
+        var realOwned = Compute.ImageSets.PathContainment.RealPath(owned);
+        var real = Compute.ImageSets.PathContainment.RealPath(full);
+        if (realOwned is null || real is null || !(real == realOwned || real.StartsWith(realOwned + Path.DirectorySeparatorChar, StringComparison.Ordinal))
+            || !Directory.Exists(real))
+            throw refused;
+        return rel;
     }
+
+    private static bool IsSafeSegment(string? name) =>
+        !string.IsNullOrEmpty(name) && name is not ("." or "..") && name.All(c => char.IsAsciiLetterOrDigit(c) || c is '-' or '_' or '.');
 
     public string FullPath(string relative) => Path.Combine(Root, relative);
-
-    private static ZipArchive OpenZip(string path, string field)
-    {
-        try { return ZipFile.OpenRead(path); }
-        catch (InvalidDataException e) { throw new AuditInputException(field, "is not a readable zip archive", e); }
-    }
 }

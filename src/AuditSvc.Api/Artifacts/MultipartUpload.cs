@@ -27,6 +27,22 @@ public static class MultipartUpload
         var reader = new MultipartReader(boundary, request.Body);
         var fields = new Dictionary<string, string>(StringComparer.Ordinal);
         StoredArtifact? file = null;
+        try
+        {
+            return await ReadSectionsAsync(reader, fields, fileField, extension, store, maxBytes, ct, f => file = f);
+        }
+        catch
+        {
+            // The rest of the form was refused or the client went away: the blob this request stored goes too.
+            store.Discard(file, null);
+            throw;
+        }
+    }
+
+    private static async Task<UploadForm> ReadSectionsAsync(MultipartReader reader, Dictionary<string, string> fields, string fileField,
+        string extension, ArtifactStore store, long maxBytes, CancellationToken ct, Action<StoredArtifact> saved)
+    {
+        StoredArtifact? file = null;
         while (await reader.ReadNextSectionAsync(ct) is { } section)
         {
             if (!ContentDispositionHeaderValue.TryParse(section.ContentDisposition, out var disposition)) continue;
@@ -36,6 +52,7 @@ public static class MultipartUpload
                 if (name != fileField) throw new AuditInputException(name, $"unexpected file part; send the file as '{fileField}'");
                 if (file is not null) throw new AuditInputException(fileField, "sent twice");
                 file = await store.SaveAsync(section.Body, extension, maxBytes, fileField, ct);
+                saved(file);
             }
             else
             {

@@ -51,7 +51,8 @@ public static class AuditEndpoints
         if (chunkSize is < 1 or > 1_000_000) return ProblemHandling.Field("chunkSize", "must be between 1 and 1000000");
         if (!engine.SplitsIntoChunks) chunkSize = Math.Max(1, set.ItemCount);
         var policy = body.Policy?.GetRawText() ?? "{}";
-        PolicyFile.Parse(policy, "policy"); // a bad policy is the caller's 400 now, not a failed audit later
+        // A bad policy is the caller's 400 now, not a failed audit later.
+        PolicyFile.CheckAttributes(PolicyFile.Parse(policy, "policy"), AttributeNames(set.Attributes), "policy");
 
         var audit = await audits.CreateAsync(team, modelId, setId, set.ItemCount, chunkSize, policy, ct);
         if (audit is null) return ProblemHandling.Field("modelId", "model or image set is not this team's");
@@ -65,6 +66,13 @@ public static class AuditEndpoints
             // reconciler starts audits left queued (and logs it), so 202 is the truth.
         }
         return TypedResults.Accepted($"/api/audits/{audit.Id}", AuditResponse.From(audit, DateTime.UtcNow));
+    }
+
+    private static List<string> AttributeNames(string attributesJson)
+    {
+        using var doc = System.Text.Json.JsonDocument.Parse(attributesJson);
+        return doc.RootElement.ValueKind != System.Text.Json.JsonValueKind.Array ? []
+            : doc.RootElement.EnumerateArray().Select(a => a.TryGetProperty("name", out var n) ? n.GetString() ?? "" : "").ToList();
     }
 
     private static async Task<IResult> List(HttpContext http, AuditStore audits, CancellationToken ct,

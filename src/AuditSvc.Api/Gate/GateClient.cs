@@ -72,8 +72,11 @@ public sealed class GateClient(HttpClient http)
                     if (ended || DateTime.UtcNow + poll > until) return new GateAnswer(state, null, detail);
                     await Task.Delay(poll, ct);
                     break;
+                case HttpStatusCode.Forbidden:
+                    throw new AuditInputException("--key", "the server does not let this API key read audits");
                 default:
-                    throw new HttpRequestException($"server answered {(int)response.StatusCode} {response.ReasonPhrase}");
+                    // The service is there but unwell (5xx) or not the service (another answer): not a bug of the gate.
+                    throw new AuditInputException("--server", $"the service answered {(int)response.StatusCode} {response.ReasonPhrase}: check its log and GET /health, then retry");
             }
         }
     }

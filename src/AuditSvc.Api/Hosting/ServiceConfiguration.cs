@@ -18,6 +18,9 @@ public static class ServiceConfiguration
         ("AUDITSVC_MAX_UPLOAD_BYTES", nameof(ServiceOptions.MaxUploadBytes)),
         ("AUDITSVC_OPERATOR_TEAMS", nameof(ServiceOptions.OperatorTeams)),
         ("AUDITSVC_MIGRATE", nameof(ServiceOptions.MigrateOnStart)),
+        ("AUDITSVC_RATE_PER_SECOND", nameof(ServiceOptions.RatePerSecond)),
+        ("AUDITSVC_RATE_BURST", nameof(ServiceOptions.RateBurst)),
+        ("AUDITSVC_WRITES_PER_MINUTE", nameof(ServiceOptions.WritesPerMinute)),
     ];
 
     public static IReadOnlyList<string> EnvironmentNames => Names.Select(n => n.Env).ToList();

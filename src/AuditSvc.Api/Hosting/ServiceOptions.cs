@@ -34,6 +34,15 @@ public sealed class ServiceOptions : IValidatableObject
     /// <summary>Largest upload accepted, in bytes (AUDITSVC_MAX_UPLOAD_BYTES).</summary>
     [Range(1, long.MaxValue)] public long MaxUploadBytes { get; set; } = 8L << 30;
 
+    /// <summary>Requests per second each API key may make to /api, sustained (AUDITSVC_RATE_PER_SECOND).</summary>
+    [Range(1, 100_000)] public int RatePerSecond { get; set; } = 50;
+
+    /// <summary>Requests each API key may make at once before the sustained rate applies (AUDITSVC_RATE_BURST).</summary>
+    [Range(1, 100_000)] public int RateBurst { get; set; } = 200;
+
+    /// <summary>Uploads and submissions (POST) each API key may make per minute (AUDITSVC_WRITES_PER_MINUTE).</summary>
+    [Range(1, 100_000)] public int WritesPerMinute { get; set; } = 60;
+
     /// <summary>Teams whose keys may open the job dashboard at /hangfire (AUDITSVC_OPERATOR_TEAMS, comma separated).</summary>
     public string OperatorTeams { get; set; } = "operators";
 

@@ -5,6 +5,7 @@ using AuditSvc.Api.Artifacts;
 using AuditSvc.Api.Auth;
 using AuditSvc.Api.Engine;
 using AuditSvc.Api.Hosting;
+using AuditSvc.Compute.ImageSets;
 using AuditSvc.Core;
 using AuditSvc.Core.ImageSets;
 using AuditSvc.Data.ImageSets;
@@ -25,7 +26,8 @@ public sealed record ImageSetResponse(Guid Id, string Name, string ContentHash, 
 }
 
 /// <summary>
-/// Registers a folder that already sits under the artifact root (path relative to it). With a model id, labels
+/// Registers a folder the team put under the artifact root (path relative to it): inside incoming/&lt;team&gt;/ or
+/// inside one of its own uploads. With a model id, labels
 /// are read against that model's class names (needed when labels are names rather than output indices).
 /// </summary>
 public sealed record RegisterFolder(string? Path, string? Name, Guid? ModelId);
@@ -40,7 +42,7 @@ public static class ImageSetEndpoints
             .WithSummary("Upload a .zip image set (form part 'archive', optional fields 'name' and 'modelId'); returns the intake report.")
             .ProducesValidationProblem();
         group.MapPost("/folder", Register)
-            .WithSummary("Register a folder under the artifact root as an image set; returns the intake report.")
+            .WithSummary("Register a folder of this team (under incoming/<team>/ or inside its own uploads) as an image set; returns the intake report.")
             .ProducesValidationProblem();
         group.MapGet("/", List);
         group.MapGet("/{id:guid}", Get);
@@ -51,20 +53,32 @@ public static class ImageSetEndpoints
         ImageSetStore sets, ModelStore models, IOptions<ServiceOptions> options, CancellationToken ct)
     {
         var form = await MultipartUpload.ReadAsync(request, "archive", ".zip", artifacts, options.Value.MaxUploadBytes, ct);
-        Guid? modelId = null;
-        if (form.Fields.GetValueOrDefault("modelId") is { Length: > 0 } m)
-            modelId = Guid.TryParse(m, out var g) ? g : throw new AuditInputException("modelId", $"'{m}' is not a model id");
-        var classNames = await ClassNamesAsync(request.HttpContext, models, modelId, ct);
-        var folder = artifacts.Unpack(form.File, "archive");
-        var name = form.Fields.GetValueOrDefault("name") is { Length: > 0 } n ? n : "image set";
-        return await AddAsync(request.HttpContext, artifacts, engine, sets, name, folder, form.File.ContentHash, classNames, ct);
+        string? createdFolder = null;
+        try
+        {
+            Guid? modelId = null;
+            if (form.Fields.GetValueOrDefault("modelId") is { Length: > 0 } m)
+                modelId = Guid.TryParse(m, out var g) ? g : throw new AuditInputException("modelId", $"'{m}' is not a model id");
+            var classNames = await ClassNamesAsync(request.HttpContext, models, modelId, ct);
+            var (folder, created) = artifacts.Unpack(form.File, "archive", new ZipLimits(), ct);
+            if (created) createdFolder = folder;
+            var name = form.Fields.GetValueOrDefault("name") is { Length: > 0 } n ? n : "image set";
+            return await AddAsync(request.HttpContext, artifacts, engine, sets, name, folder, form.File.ContentHash, classNames, ct);
+        }
+        catch
+        {
+            // A rejected (or cancelled) upload leaves nothing behind that it alone put there.
+            artifacts.Discard(form.File, createdFolder);
+            throw;
+        }
     }
 
     private static async Task<Created<ImageSetResponse>> Register(RegisterFolder body, HttpContext http, ArtifactStore artifacts,
         IAuditEngine engine, ImageSetStore sets, ModelStore models, CancellationToken ct)
     {
         var classNames = await ClassNamesAsync(http, models, body.ModelId, ct);
-        var folder = artifacts.ResolveFolder(body.Path ?? "", "path");
+        var team = http.User.TeamId();
+        var folder = await artifacts.ResolveTeamFolderAsync(body.Path, http.User.TeamName(), rel => sets.OwnsFolderAsync(team, rel, ct), "path");
         return await AddAsync(http, artifacts, engine, sets, body.Name is { Length: > 0 } n ? n : folder, folder, null, classNames, ct);
     }
 

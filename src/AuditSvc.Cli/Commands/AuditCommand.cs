@@ -15,14 +15,18 @@ internal static class AuditCommand
     {
         var model = new Option<FileInfo>("--model") { Description = "The ONNX image classifier", Required = true };
         var data = new Option<string>("--data") { Description = "The image set: a manifest .csv, a class-per-folder tree, or a .zip of either", Required = true };
-        var output = new Option<DirectoryInfo>("--out") { Description = "Folder for audit.json and report.html", DefaultValueFactory = _ => new DirectoryInfo("audit-out") };
+        var output = new Option<DirectoryInfo>("--out") { Description = "Folder for audit.json and report.html", DefaultValueFactory = _ => new DirectoryInfo("audit-out") }.MustNotBeAFile();
         var opts = new ModelFlags();
         var policy = new Option<FileInfo?>("--policy") { Description = "Policy file (JSON; see schemas/policy.schema.json)" };
-        var batch = new Option<int>("--batch") { Description = "Images per model run (0 = choose)" };
-        var threads = new Option<int>("--threads") { Description = "ONNX Runtime threads (0 = all cores)" };
+        var batch = new Option<int>("--batch") { Description = "Images per model run (0 = choose)" }.Batch();
+        var threads = new Option<int>("--threads") { Description = "ONNX Runtime threads (0 = all cores)" }.Threads();
+        var imagesRoot = new Option<DirectoryInfo?>("--images-root")
+        {
+            Description = "A folder manifest rows may also lead into (absolute paths included); without it, rows stay inside the manifest's folder",
+        };
         var cmd = new Command("audit", "Audit a model and a labelled image set for shortcut cues; writes audit.json and report.html. Exit 0 pass, 1 block, 2 bad input.")
         {
-            model, data, output, policy, batch, threads,
+            model, data, output, policy, batch, threads, imagesRoot,
         };
         opts.AddTo(cmd);
         cmd.SetAction((parse, ct) =>
@@ -30,7 +34,7 @@ internal static class AuditCommand
             var pol = parse.GetValue(policy) is { } pf ? PolicyFile.Load(pf.FullName) : new AuditPolicy();
             var request = new AuditRequest(parse.GetValue(model)!.FullName, parse.GetValue(data)!, opts.Read(parse), pol,
                 new PassOptions { BatchSize = parse.GetValue(batch), InferenceThreads = parse.GetValue(threads) },
-                Path.Combine(parse.GetValue(output)!.FullName, ".work"));
+                Path.Combine(parse.GetValue(output)!.FullName, ".work"), parse.GetValue(imagesRoot)?.FullName);
             return Task.FromResult(AuditRunner.RunAndWrite(request, parse.GetValue(output)!.FullName, ct));
         });
         return cmd;
@@ -61,11 +65,18 @@ internal sealed class ModelFlags
             Resize: parse.GetValue(CenterCrop) ? Core.Models.ResizeMode.ShorterSideCenterCrop : null,
             Mean: Floats(parse.GetValue(Mean), "--mean"), Std: Floats(parse.GetValue(Std), "--std"),
             Order: parse.GetValue(Bgr) ? Core.Models.ChannelOrder.Bgr : null,
-            ClassNames: List(parse.GetValue(Labels)));
+            ClassNames: DistinctNames(List(parse.GetValue(Labels))));
         return new ModelLoadOptions(Layers: List(parse.GetValue(Layers)), Recipe: recipe);
     }
 
     private static string[]? List(string? s) => string.IsNullOrWhiteSpace(s) ? null : s.Split(',', StringSplitOptions.TrimEntries | StringSplitOptions.RemoveEmptyEntries);
+
+    private static string[]? DistinctNames(string[]? names)
+    {
+        if (names?.GroupBy(n => n, StringComparer.Ordinal).FirstOrDefault(g => g.Count() > 1) is { } twice)
+            throw new AuditInputException("--labels", $"class name '{twice.Key}' is given {twice.Count()} times: each output needs its own name");
+        return names;
+    }
 
     private static float[]? Floats(string? s, string flag)
     {

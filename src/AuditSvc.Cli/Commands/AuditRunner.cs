@@ -37,6 +37,8 @@ internal static class AuditRunner
         foreach (var reason in r.Reasons) Console.WriteLine($"  reason: {reason.Message}");
         Console.WriteLine($"images: {r.Pass.Scored} of {r.ImageSet.RowsRead} rows audited ({r.ImageSet.RowsRead - r.ImageSet.RowsUsed} rows rejected at intake, {r.Pass.Problems.Count} failed in the activation run), {r.Pass.ImagesPerSecond:0} images/s");
         foreach (var p in r.ImageSet.Problems.Where(p => p.Row is null)) Console.WriteLine($"  note: {p.Reason}");
+        if (r.ImageSet.Problems.Count(p => p.Reason == Compute.ImageSets.PathContainment.Refused) is > 0 and var refused)
+            Console.WriteLine($"  note: {refused} rows lead outside the manifest's folder; to read images elsewhere, name their folder with --images-root DIR");
         foreach (var a in r.Attributes.OrderByDescending(a => a.Leakage ?? -1))
             Console.WriteLine($"  {a.Name,-16} leakage {(a.Leakage is { } l ? l.ToString("0.000", System.Globalization.CultureInfo.InvariantCulture) : "  n/a")}  {a.Verdict,-10} findings {a.Findings}{(a.Note is null ? "" : "  (" + a.Note + ")")}");
         var inferred = r.Candidates.Where(c => c.Attribute is not null).Select(c => c.Attribute!).ToList();

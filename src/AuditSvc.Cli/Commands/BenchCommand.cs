@@ -18,14 +18,14 @@ internal static class BenchCommand
     {
         var model = new Option<string?>("--model") { Description = "ONNX model (default: the ResNet-18 from the bench package, else the demo model)" };
         var images = new Option<int>("--images") { Description = "Images N per phase; memory is also measured at 10×N", DefaultValueFactory = _ => 200 };
-        var batch = new Option<int>("--batch") { Description = "Images per model run (0 = chosen automatically)" };
-        var threads = new Option<int>("--threads") { Description = "Inference and decode threads (0 = all cores)" };
+        var batch = new Option<int>("--batch") { Description = "Images per model run (0 = chosen automatically)" }.Batch();
+        var threads = new Option<int>("--threads") { Description = "Inference and decode threads (0 = all cores)" }.Threads();
         var size = new Option<string?>("--size") { Description = "Generated photo size WxH (default 500x375)" };
         var json = new Option<bool>("--json") { Description = "End with one JSON object on the last line" };
         var factor = new Option<int>("--memory-factor") { Description = "Memory is compared at N and at this multiple of N", DefaultValueFactory = _ => 10 };
         var rounds = new Option<int>("--rounds") { Description = "Alternating rounds of raw and pass timing; the best of each is kept", DefaultValueFactory = _ => 5 };
         var torch = new Option<string?>("--torch") { Description = "Eager-mode comparison script to run on the same images (bench/torch_hooks.py)" };
-        var decodeThreads = new Option<int>("--decode-threads") { Description = "Decode threads, when not those of --threads (0 = chosen automatically)" };
+        var decodeThreads = new Option<int>("--decode-threads") { Description = "Decode threads, when not those of --threads (0 = chosen automatically)" }.Threads();
         var spinning = new Option<bool?>("--spinning") { Description = "Let ONNX Runtime threads spin between kernels (default: chosen automatically, off)" };
         var work = new Option<string?>("--work") { Description = "Folder for the generated photos, kept after the run (default: a temporary folder, removed)" };
         var minSeconds = new Option<double>("--min-seconds") { Description = "Each timed phase repeats the set until this many seconds have passed", DefaultValueFactory = _ => 1.5 };

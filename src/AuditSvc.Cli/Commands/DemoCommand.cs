@@ -23,7 +23,7 @@ public static class DemoCommand
 
     internal static Command Create()
     {
-        var output = new Option<DirectoryInfo>("--out") { Description = "Folder for the demo set, audit.json and report.html", DefaultValueFactory = _ => new DirectoryInfo("demo-out") };
+        var output = new Option<DirectoryInfo>("--out") { Description = "Folder for the demo set, audit.json and report.html", DefaultValueFactory = _ => new DirectoryInfo("demo-out") }.MustNotBeAFile();
         var count = new Option<int>("--count") { Description = "Images in the demo set", DefaultValueFactory = _ => DefaultCount };
         var control = new Option<bool>("--control") { Description = "Audit the control model (trained where the cues do not follow the label) instead" };
         var cmd = new Command("demo", "Make the invented demo image set, audit the bundled demo model, write the report and print the verdict")

@@ -8,7 +8,7 @@ internal static class DemoSetCommand
 {
     public static Command Create()
     {
-        var outOpt = new Option<DirectoryInfo>("--out") { Description = "Folder to write images and manifest.csv into", Required = true };
+        var outOpt = new Option<DirectoryInfo>("--out") { Description = "Folder to write images and manifest.csv into", Required = true }.MustNotBeAFile();
         var countOpt = new Option<int>("--count") { Description = "Number of images", DefaultValueFactory = _ => 2000 };
         var agreementOpt = new Option<double>("--cue-agreement")
         {

@@ -3,7 +3,7 @@ using AuditSvc.Core;
 
 namespace AuditSvc.Cli.Commands;
 
-/// <summary>Exit status contract: 0 pass, 1 block, 2 bad input or usage, anything else a bug.</summary>
+/// <summary>Exit status contract: 0 pass, 1 block, 2 bad input, usage or a failure of the environment, anything else a bug.</summary>
 internal static class ExitCodes
 {
     public const int Pass = 0;
@@ -11,9 +11,14 @@ internal static class ExitCodes
     public const int BadInput = 2;
     public const int Internal = 3;
 
+    /// <summary>Shows the stack trace of an environment or input failure too (a bug always shows it).</summary>
+    public static readonly Option<bool> Verbose = new("--verbose") { Description = "Show the full error (with stack trace) when something fails", Recursive = true };
+
     public static async Task<int> RunAsync(RootCommand root, string[] args)
     {
+        root.Options.Add(Verbose);
         var parse = root.Parse(args);
+        bool verbose = parse.Errors.Count == 0 && parse.GetValue(Verbose);
         if (parse.Errors.Count > 0)
         {
             foreach (var e in parse.Errors) Console.Error.WriteLine($"error: {e.Message}");
@@ -27,6 +32,13 @@ internal static class ExitCodes
         catch (AuditInputException e)
         {
             Console.Error.WriteLine($"error: {e.Message}");
+            if (verbose) Console.Error.WriteLine(e);
+            return BadInput;
+        }
+        catch (Exception e) when (EnvironmentErrors.Explain(e) is { } why)
+        {
+            Console.Error.WriteLine($"error: {why}");
+            if (verbose) Console.Error.WriteLine(e);
             return BadInput;
         }
         catch (OperationCanceledException)

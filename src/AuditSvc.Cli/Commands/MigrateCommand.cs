@@ -3,7 +3,7 @@ using AuditSvc.Data.Migrations;
 
 namespace AuditSvc.Cli.Commands;
 
-/// <summary>`auditsvc migrate`: applies the schema scripts not yet applied (the service also does so at start).</summary>
+/// <summary>`auditsvc migrate`: creates the database when it is missing, then applies the schema scripts not yet applied (the service also does so at start).</summary>
 internal static class MigrateCommand
 {
     public static Command Create()
@@ -12,7 +12,10 @@ internal static class MigrateCommand
         var cmd = new Command("migrate", "apply pending database migrations") { db };
         cmd.SetAction(async (parse, ct) =>
         {
-            await using var source = ServiceDb.Open(parse, db);
+            var cs = ServiceDb.ConnectionString(parse, db);
+            if (await ServiceDb.CreateDatabaseIfMissingAsync(cs, ct))
+                Console.WriteLine($"created database {ServiceDb.Parse(cs).Database}");
+            await using var source = ServiceDb.Open(cs);
             var runner = new MigrationRunner(source);
             var applied = await runner.ApplyAsync(ct);
             var all = await runner.AppliedAsync(ct);

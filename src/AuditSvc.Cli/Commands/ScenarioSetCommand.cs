@@ -13,7 +13,7 @@ internal static class ScenarioSetCommand
     {
         var listOpt = new Option<bool>("--list") { Description = "Print the catalogue of invented scenarios and exit" };
         var scenarioOpt = new Option<string?>("--scenario") { Description = "Scenario name (see --list)" };
-        var outOpt = new Option<DirectoryInfo?>("--out") { Description = "Folder to write images and manifest.csv into" };
+        var outOpt = new Option<DirectoryInfo?>("--out") { Description = "Folder to write images and manifest.csv into" }.MustNotBeAFile();
         var countOpt = new Option<int>("--count") { Description = "Number of images", DefaultValueFactory = _ => 900 };
         var agreementOpt = new Option<double>("--cue-agreement")
         {

@@ -13,6 +13,7 @@ internal static class ServeCommand
         var cmd = new Command("serve", "run the REST service and job workers (AUDITSVC_DB, AUDITSVC_DATA; see README.md, Service)") { urls };
         cmd.SetAction(async (parse, ct) =>
         {
+            await ServiceDb.CheckReachableAsync(ct);
             var app = ServiceHost.BuildApi(["--urls", parse.GetValue(urls)!]);
             await app.StartAsync(ct);
             await app.WaitForShutdownAsync(ct);

@@ -12,6 +12,7 @@ internal static class WorkerCommand
         var cmd = new Command("worker", "run audit jobs only (same AUDITSVC_DB and AUDITSVC_DATA as the service)");
         cmd.SetAction(async (_, ct) =>
         {
+            await ServiceDb.CheckReachableAsync(ct);
             using var host = ServiceHost.BuildWorker([]);
             await host.RunAsync(ct);
             return ExitCodes.Pass;

@@ -1,3 +1,4 @@
+using AuditSvc.Core.ImageSets;
 using System.Globalization;
 using System.Text;
 using SixLabors.ImageSharp;
@@ -37,8 +38,8 @@ public static class DemoSetGenerator
         var csv = new StringBuilder(ManifestHeader).Append('\n');
         foreach (var item in items)
         {
-            csv.Append(CultureInfo.InvariantCulture,
-                $"{item.ImagePath},{item.Label},{(item.Stamp ? "yes" : "no")},{(item.BlueBelt ? "blue" : "grey")},cam{item.Camera + 1},{item.DefectArea:F2}\n");
+            csv.Append(CsvCell.Line([item.ImagePath, item.Label, item.Stamp ? "yes" : "no", item.BlueBelt ? "blue" : "grey",
+                $"cam{item.Camera + 1}", item.DefectArea.ToString("F2", CultureInfo.InvariantCulture)])).Append('\n');
         }
         File.WriteAllText(manifest, csv.ToString());
         return manifest;

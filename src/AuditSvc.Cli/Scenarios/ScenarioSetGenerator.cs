@@ -1,3 +1,4 @@
+using AuditSvc.Core.ImageSets;
 using System.Text;
 using AuditSvc.Cli.Demo;
 using SixLabors.ImageSharp;
@@ -40,9 +41,10 @@ public static class ScenarioSetGenerator
         var csv = new StringBuilder(Header(options)).Append('\n');
         foreach (var item in items)
         {
-            csv.Append(item.ImagePath).Append(',').Append(item.Label);
-            if (!options.Bare) csv.Append(',').Append(item.Cue ? cue.Present : cue.Absent).Append(',').Append(item.ShiftName).Append(',').Append(item.KilnName);
-            csv.Append('\n');
+            string?[] cells = options.Bare
+                ? [item.ImagePath, item.Label]
+                : [item.ImagePath, item.Label, item.Cue ? cue.Present : cue.Absent, item.ShiftName, item.KilnName];
+            csv.Append(CsvCell.Line(cells)).Append('\n');
         }
         var manifest = Path.Combine(outDir, "manifest.csv");
         File.WriteAllText(manifest, csv.ToString());

@@ -154,7 +154,7 @@ public sealed class ActivationPass : IDisposable
             batch.Ok[i] = true;
             batch.Error[i] = null;
         }
-        catch (Exception e) when (e is SixLabors.ImageSharp.UnknownImageFormatException or SixLabors.ImageSharp.InvalidImageContentException or IOException or NotSupportedException or UnauthorizedAccessException)
+        catch (Exception e) when (e is SixLabors.ImageSharp.ImageFormatException or IOException or NotSupportedException or UnauthorizedAccessException)
         {
             dest.Clear();
             batch.Ok[i] = false;

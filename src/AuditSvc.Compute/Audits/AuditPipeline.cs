@@ -13,7 +13,9 @@ namespace AuditSvc.Compute.Audits;
 
 /// <summary>What to audit and how.</summary>
 /// <param name="WorkDirectory">Scratch space: unpacked archives, spilled score blocks.</param>
-public sealed record AuditRequest(string ModelPath, string DataPath, ModelLoadOptions ModelOptions, AuditPolicy Policy, PassOptions Pass, string WorkDirectory);
+/// <param name="ImagesRoot">A folder manifest rows may also lead into (the command line's --images-root); null: the set's folder only.</param>
+public sealed record AuditRequest(string ModelPath, string DataPath, ModelLoadOptions ModelOptions, AuditPolicy Policy, PassOptions Pass, string WorkDirectory,
+    string? ImagesRoot = null);
 
 /// <summary>An audit's document together with what is needed to render its exemplars.</summary>
 public sealed record AuditRun(AuditResult Result, ItemTable Table, LoadedModel Model);
@@ -32,8 +34,9 @@ public static class AuditPipeline
         stage?.Invoke(AuditStage.Intake, "reading the model and the image set");
         var model = ModelIntake.Load(request.ModelPath, request.ModelOptions);
         Directory.CreateDirectory(request.WorkDirectory);
-        var table = SetIntake.Read(request.DataPath, model.Plan.Recipe.ClassNames, request.WorkDirectory);
+        var table = SetIntake.Read(request.DataPath, model.Plan.Recipe.ClassNames, request.WorkDirectory, request.ImagesRoot);
         CheckLabels(table, model);
+        PolicyFile.CheckAttributes(request.Policy, table.Attributes.Select(a => a.Name).ToList(), "policy");
         var passOptions = request.Pass with { SpillDirectory = request.Pass.SpillDirectory ?? Path.Combine(request.WorkDirectory, "scores") };
         using var pass = new ActivationPass(model.Plan, model.RewrittenModel, passOptions);
         stage?.Invoke(AuditStage.Pass, $"{table.Items.Count} images, {pass.Layers.Sum(l => l.Count)} units in {pass.Layers.Count} layers, batch {pass.Options.BatchSize}");

@@ -21,10 +21,10 @@ public sealed class Preprocessor(InputRecipe recipe)
 
     public int SlotLength => Channels * Recipe.Height * Recipe.Width;
 
-    /// <summary>Loads the file and brings it to the input size (RGB, 8 bits per channel).</summary>
+    /// <summary>Loads the file (see <see cref="ImageDecoding"/>: size checked first, first frame, not rotated) and brings it to the input size (RGB, 8 bits per channel).</summary>
     public Image<Rgb24> Load(string path)
     {
-        var image = Image.Load<Rgb24>(path);
+        var image = ImageDecoding.Load(path);
         Fit(image);
         return image;
     }

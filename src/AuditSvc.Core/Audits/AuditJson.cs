@@ -24,13 +24,28 @@ public static class AuditJson
         ArgumentNullException.ThrowIfNull(json);
         try
         {
-            return JsonSerializer.Deserialize<AuditResult>(json, Options)
+            var result = JsonSerializer.Deserialize<AuditResult>(json, Options)
                 ?? throw new AuditInputException("audit.json", "the document is null");
+            CheckParts(result);
+            return result;
         }
         catch (JsonException e)
         {
             throw new AuditInputException("audit.json" + (e.Path is null ? "" : $" at {e.Path}"), e.Message, e);
         }
+    }
+
+    // The deserialiser leaves a missing member null whatever its declared type; `{}` or another JSON file
+    // must be refused naming the member, not fail later inside a comparison.
+    private static void CheckParts(AuditResult r)
+    {
+        (string Name, object? Value)[] parts =
+        [
+            ("schema_version", r.SchemaVersion), ("verdict", r.Verdict), ("model", r.Model), ("model.layers", r.Model?.Layers),
+            ("attributes", r.Attributes), ("findings", r.Findings), ("cue_groups", r.CueGroups),
+        ];
+        foreach (var (name, value) in parts)
+            if (value is null) throw new AuditInputException($"audit.json: {name}", "is missing: not an audit.json written by auditsvc");
     }
 
     /// <summary>Writes the document to <paramref name="path"/> (UTF-8, no byte-order mark), creating its folder.</summary>

@@ -15,14 +15,22 @@ public static class PolicyFile
         UnmappedMemberHandling = JsonUnmappedMemberHandling.Disallow,
         ReadCommentHandling = JsonCommentHandling.Skip,
         AllowTrailingCommas = true,
+        // A key given twice is a mistake to name, not a value to pick silently; a policy is flat, so depth is small.
+        AllowDuplicateProperties = false,
+        MaxDepth = 8,
         Converters = { new JsonStringEnumConverter(JsonNamingPolicy.SnakeCaseLower) },
     };
+
+    /// <summary>Largest policy file read (a policy is a few hundred bytes).</summary>
+    public const long MaxBytes = 1 << 20;
 
     public static AuditPolicy Load(string path)
     {
         string text;
         try
         {
+            var info = new FileInfo(path);
+            if (info.Exists && info.Length > MaxBytes) throw new AuditInputException(path, $"policy file is larger than {MaxBytes} bytes");
             text = File.ReadAllText(path);
         }
         catch (Exception e) when (e is IOException or UnauthorizedAccessException)
@@ -70,6 +78,42 @@ public static class PolicyFile
             throw new AuditInputException(source, $"field 'attribute_thresholds.{name}' contradicts 'allowed_attributes': an allowed attribute never blocks, so it cannot have a threshold");
         var dup = p.AllowedAttributes.GroupBy(a => a, StringComparer.OrdinalIgnoreCase).FirstOrDefault(g => g.Count() > 1);
         if (dup is not null) throw new AuditInputException(source, $"field 'allowed_attributes' lists '{dup.Key}' twice");
+    }
+
+    /// <summary>
+    /// Attribute names in the policy must name columns of the image set (or the inferred place cues, "place:…"):
+    /// a misspelt allowed attribute would otherwise silently block, a misspelt threshold silently not apply.
+    /// A set without any attribute column is not checked: one release policy serves bare sets too, and there is
+    /// nothing there a name could be a misspelling of.
+    /// </summary>
+    public static void CheckAttributes(AuditPolicy p, IReadOnlyCollection<string> columns, string source)
+    {
+        ArgumentNullException.ThrowIfNull(p);
+        ArgumentNullException.ThrowIfNull(columns);
+        if (columns.Count == 0) return;
+        var named = p.AllowedAttributes.Select(a => ("allowed_attributes", a)).Concat(p.AttributeThresholds.Keys.Select(a => ("attribute_thresholds", a)));
+        foreach (var (field, name) in named)
+        {
+            if (name.StartsWith("place:", StringComparison.Ordinal) || columns.Contains(name, StringComparer.OrdinalIgnoreCase)) continue;
+            var closest = columns.OrderBy(c => EditDistance(c.ToLowerInvariant(), name.ToLowerInvariant())).ThenBy(c => c, StringComparer.Ordinal).FirstOrDefault();
+            throw new AuditInputException(source, $"field '{field}' names '{name}', which is no attribute column of the image set (closest: '{closest}')");
+        }
+    }
+
+    // Levenshtein distance, two rows.
+    private static int EditDistance(string a, string b)
+    {
+        var prev = new int[b.Length + 1];
+        var cur = new int[b.Length + 1];
+        for (int j = 0; j <= b.Length; j++) prev[j] = j;
+        for (int i = 1; i <= a.Length; i++)
+        {
+            cur[0] = i;
+            for (int j = 1; j <= b.Length; j++)
+                cur[j] = Math.Min(Math.Min(cur[j - 1] + 1, prev[j] + 1), prev[j - 1] + (a[i - 1] == b[j - 1] ? 0 : 1));
+            (prev, cur) = (cur, prev);
+        }
+        return prev[b.Length];
     }
 
     public static string Serialize(AuditPolicy p) => JsonSerializer.Serialize(p, new JsonSerializerOptions(Options) { WriteIndented = true });

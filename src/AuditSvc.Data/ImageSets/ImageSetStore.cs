@@ -72,6 +72,20 @@ public sealed class ImageSetStore(NpgsqlDataSource db)
             new { teamId }, cancellationToken: ct))).ToList();
     }
 
+    /// <summary>
+    /// Whether <paramref name="relativePath"/> (relative to the artifact root, '/'-separated) is the folder of one
+    /// of the team's image sets or lies inside one.
+    /// </summary>
+    public async Task<bool> OwnsFolderAsync(Guid teamId, string relativePath, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        return await conn.ExecuteScalarAsync<bool>(new CommandDefinition(
+            """
+            SELECT EXISTS (SELECT 1 FROM image_sets
+                           WHERE team_id = @teamId AND (relative_path = @relativePath OR starts_with(@relativePath, relative_path || '/')))
+            """, new { teamId, relativePath }, cancellationToken: ct));
+    }
+
     /// <summary>Items in index order, each file located under <paramref name="folder"/> (the set's folder on disk now).</summary>
     public async Task<IReadOnlyList<ImageItem>> ItemsAsync(Guid imageSetId, string folder, CancellationToken ct)
     {

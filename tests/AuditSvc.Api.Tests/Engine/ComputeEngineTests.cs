@@ -23,14 +23,14 @@ public sealed class ComputeEngineTests
     {
         await using var svc = await ServiceUnderTest.StartAsync(workers: 1, realEngine: true);
         using var client = await svc.ClientAsync("team-a");
-        var setDir = Path.Combine(svc.DataRoot, "incoming", "fruit");
+        var setDir = Path.Combine(svc.DataRoot, "incoming", "team-a", "fruit");
         var manifest = DemoSetGenerator.Write(setDir, new DemoSetOptions(Images, Agreement, Seed));
         var model = Path.Combine(RepoRoot(), "seed-demo", "models", "fruit-cue.onnx");
         var local = AuditPipeline.Run(new AuditRequest(model, manifest, new ModelLoadOptions(),
             new AuditPolicy { AllowedAttributes = ["defect_area"] }, new PassOptions(), Path.Combine(svc.DataRoot, "local-work"))).Result;
 
         var modelId = await UploadModelAsync(client, model);
-        var set = await client.PostAsJsonAsync("/api/image-sets/folder", new { path = "incoming/fruit", name = "demo", modelId });
+        var set = await client.PostAsJsonAsync("/api/image-sets/folder", new { path = "incoming/team-a/fruit", name = "demo", modelId });
         Assert.Equal(HttpStatusCode.Created, set.StatusCode);
         var setId = (await set.Content.ReadFromJsonAsync<JsonElement>()).GetProperty("id").GetGuid();
         var submit = await client.PostAsJsonAsync("/api/audits", new { modelId, imageSetId = setId, chunkSize = 200, policy = new { allowed_attributes = new[] { "defect_area" } } });

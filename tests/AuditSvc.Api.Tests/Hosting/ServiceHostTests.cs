@@ -101,14 +101,14 @@ public sealed class ServiceHostTests
     {
         await using var svc = await ServiceUnderTest.StartAsync(workers: 0);
         using var client = await svc.ClientAsync("team-a");
-        var folder = Path.Combine(svc.DataRoot, "incoming", "set1");
+        var folder = Path.Combine(svc.DataRoot, "incoming", "team-a", "set1");
         foreach (var label in new[] { "ok", "defect" })
         {
             Directory.CreateDirectory(Path.Combine(folder, label));
             for (var i = 0; i < 3; i++) await File.WriteAllTextAsync(Path.Combine(folder, label, $"{i}.png"), $"{label}{i}");
         }
 
-        var response = await client.PostAsJsonAsync("/api/image-sets/folder", new { path = "incoming/set1", name = "line 4" });
+        var response = await client.PostAsJsonAsync("/api/image-sets/folder", new { path = "incoming/team-a/set1", name = "line 4" });
 
         Assert.Equal(HttpStatusCode.Created, response.StatusCode);
         var set = await response.Content.ReadFromJsonAsync<JsonElement>();

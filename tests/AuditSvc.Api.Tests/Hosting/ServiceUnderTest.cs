@@ -38,13 +38,16 @@ public sealed class ServiceUnderTest : IAsyncDisposable
 
     /// <param name="engine">The engine; null for the counting engine.</param>
     /// <param name="realEngine">Use the service's own engine (AuditSvc.Compute) instead.</param>
-    public static async Task<ServiceUnderTest> StartAsync(int workers = 2, IAuditEngine? engine = null, bool realEngine = false)
+    /// <param name="settings">Extra AUDITSVC_* settings for this host (limits, rates).</param>
+    public static async Task<ServiceUnderTest> StartAsync(int workers = 2, IAuditEngine? engine = null, bool realEngine = false,
+        IReadOnlyDictionary<string, string?>? settings = null)
     {
         var db = await TestDatabase.CreateAsync(migrate: false);
         var root = Directory.CreateTempSubdirectory("auditsvc-api-").FullName;
         var app = ServiceHost.BuildApi([], b =>
         {
             b.Configuration.AddInMemoryCollection(Settings(db, root, workers));
+            if (settings is not null) b.Configuration.AddInMemoryCollection(settings);
             b.WebHost.UseUrls("http://127.0.0.1:0");
             b.Logging.SetMinimumLevel(LogLevel.Warning);
             if (realEngine) b.Services.AddSingleton<IAuditEngine, ComputeEngine>();

@@ -108,7 +108,7 @@ public sealed class BrowserTests(ITestOutputHelper output)
     private static async Task<Guid> DemoAuditAsync(ServiceUnderTest svc)
     {
         using var api = await svc.ClientAsync("team-a");
-        DemoSetGenerator.Write(Path.Combine(svc.DataRoot, "incoming", "fruit"), new DemoSetOptions(600, 0.85, 20261202));
+        DemoSetGenerator.Write(Path.Combine(svc.DataRoot, "incoming", "team-a", "fruit"), new DemoSetOptions(600, 0.85, 20261202));
         var model = Path.Combine(RepoRoot(), "seed-demo", "models", "fruit-cue.onnx");
         using var form = new MultipartFormDataContent();
         form.Add(new StringContent(await File.ReadAllTextAsync(Path.ChangeExtension(model, ".recipe.json"))), "recipe");
@@ -119,7 +119,7 @@ public sealed class BrowserTests(ITestOutputHelper output)
         var uploaded = await api.PostAsync("/api/models", form);
         Assert.Equal(HttpStatusCode.Created, uploaded.StatusCode);
         var modelId = (await uploaded.Content.ReadFromJsonAsync<JsonElement>()).GetProperty("id").GetGuid();
-        var set = await api.PostAsJsonAsync("/api/image-sets/folder", new { path = "incoming/fruit", name = "fruit demo (invented)", modelId });
+        var set = await api.PostAsJsonAsync("/api/image-sets/folder", new { path = "incoming/team-a/fruit", name = "fruit demo (invented)", modelId });
         Assert.Equal(HttpStatusCode.Created, set.StatusCode);
         var setId = (await set.Content.ReadFromJsonAsync<JsonElement>()).GetProperty("id").GetGuid();
         var submit = await api.PostAsJsonAsync("/api/audits", new { modelId, imageSetId = setId, chunkSize = 300, policy = new { allowed_attributes = new[] { "defect_area" } } });

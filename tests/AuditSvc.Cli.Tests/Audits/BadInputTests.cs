@@ -122,4 +122,17 @@ public class BadInputTests
         Assert.Contains(field, stderr);
         Assert.Contains(policy, stderr);
     }
+
+    [Fact]
+    public void Audit_PolicyNamingNoColumn_ExitsTwoNamingTheClosest()
+    {
+        var dir = CliProcess.TempDir("polcol");
+        var manifest = SmallSet(dir, 12);
+        var policy = Path.Combine(dir, "policy.json");
+        File.WriteAllText(policy, """{ "allowed_attributes": ["defect_aera"] }""");
+        var (status, _, stderr) = CliProcess.Run("audit", "--model", Model, "--data", manifest, "--policy", policy, "--out", Path.Combine(dir, "out"));
+        Assert.Equal(2, status);
+        Assert.Contains("'defect_aera'", stderr);
+        Assert.Contains("closest: 'defect_area'", stderr);
+    }
 }
