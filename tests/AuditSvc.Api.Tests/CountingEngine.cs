@@ -15,6 +15,15 @@ public sealed class CountingEngine(string? markers = null, int waitForPeers = 0,
 {
     public sealed record Chunk(int Pid, int[] Items);
 
+    /// <summary>How long the finish (merge and analysis) takes; it stops early when its token is cancelled.</summary>
+    public TimeSpan FinishTime { get; set; }
+
+    /// <summary>Set when a finish begins.</summary>
+    public TaskCompletionSource FinishStarted { get; } = new(TaskCreationOptions.RunContinuationsAsynchronously);
+
+    /// <summary>Set when a finish was stopped by its cancellation token.</summary>
+    public TaskCompletionSource FinishCancelled { get; } = new(TaskCreationOptions.RunContinuationsAsynchronously);
+
     public bool SplitsIntoChunks => true;
 
     public Task<ModelIntake> InspectModelAsync(string modelPath, CancellationToken ct)
@@ -58,8 +67,21 @@ public sealed class CountingEngine(string? markers = null, int waitForPeers = 0,
     public Task<string> RenderReportAsync(AuditInputs inputs, string auditJson, CancellationToken ct) =>
         Task.FromResult($"<!doctype html><title>audit</title><pre>{System.Net.WebUtility.HtmlEncode(auditJson)}</pre>");
 
-    public Task<AuditOutcome> FinishAsync(AuditInputs inputs, IReadOnlyList<byte[]> chunks, CancellationToken ct)
+    public async Task<AuditOutcome> FinishAsync(AuditInputs inputs, IReadOnlyList<byte[]> chunks, CancellationToken ct)
     {
+        FinishStarted.TrySetResult();
+        if (FinishTime > TimeSpan.Zero)
+        {
+            try
+            {
+                await Task.Delay(FinishTime, ct);
+            }
+            catch (OperationCanceledException)
+            {
+                FinishCancelled.TrySetResult();
+                throw;
+            }
+        }
         var parsed = chunks.Select(c => JsonSerializer.Deserialize<Chunk>(c)!).ToList();
         var seen = parsed.SelectMany(c => c.Items).ToList();
         var counts = Enumerable.Range(0, inputs.Items.Items.Count).Select(i => seen.Count(s => s == i)).ToArray();
@@ -71,8 +93,8 @@ public sealed class CountingEngine(string? markers = null, int waitForPeers = 0,
             countedOnce = counts.Count(c => c == 1),
             processes = parsed.Select(c => c.Pid).Distinct().Order().ToArray(),
         });
-        return Task.FromResult(new AuditOutcome(json, verdict, [new FindingRow(0, "conv1", 3, "stamp", "yes", 4.0, 0.01, "top-left", "{}")],
-            [new AttributeScoreRow("stamp", verdict == "pass" ? 0.05 : 0.9, verdict, "{}")]));
+        return new AuditOutcome(json, verdict, [new FindingRow(0, "conv1", 3, "stamp", "yes", 4.0, 0.01, "top-left", "{}")],
+            [new AttributeScoreRow("stamp", verdict == "pass" ? 0.05 : 0.9, verdict, "{}")]);
     }
 
     private static int Peers(string markers) =>

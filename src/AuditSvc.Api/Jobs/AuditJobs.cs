@@ -89,16 +89,49 @@ public sealed partial class AuditJobs(ChunkStore chunks, AuditInputsLoader loade
             await chunks.FailAsync(auditId, $"merge and analysis failed {MaxAttempts} times", ct);
             return;
         }
+        // A cancelled audit stops its merge and analysis too, not only its chunks: the worker is free for others.
+        using var stop = CancellationTokenSource.CreateLinkedTokenSource(ct);
+        var watch = WatchCancelAsync(auditId, stop);
         try
         {
-            var inputs = await loader.LoadAsync(auditId, ct);
-            var outcome = await engine.FinishAsync(inputs, await chunks.ResultsAsync(auditId, ct), ct);
+            var inputs = await loader.LoadAsync(auditId, stop.Token);
+            var outcome = await engine.FinishAsync(inputs, await chunks.ResultsAsync(auditId, stop.Token), stop.Token);
             if (await chunks.FinishAsync(auditId, outcome, ct)) LogFinished(auditId, outcome.Verdict);
         }
         catch (AuditInputException e)
         {
             await chunks.FailAsync(auditId, e.Message, CancellationToken.None);
         }
+        catch (OperationCanceledException) when (stop.IsCancellationRequested && !ct.IsCancellationRequested)
+        {
+            LogMergeStopped(auditId);
+        }
+        finally
+        {
+            await stop.CancelAsync();
+            await watch;
+        }
+    }
+
+    /// <summary>How often a running merge looks whether its audit was cancelled.</summary>
+    internal static readonly TimeSpan CancelCheck = TimeSpan.FromSeconds(1);
+
+    private async Task WatchCancelAsync(Guid auditId, CancellationTokenSource work)
+    {
+        try
+        {
+            while (!work.IsCancellationRequested)
+            {
+                await Task.Delay(CancelCheck, work.Token);
+                if (await chunks.IsCancelledAsync(auditId, work.Token))
+                {
+                    await work.CancelAsync();
+                    return;
+                }
+            }
+        }
+        catch (OperationCanceledException) { /* the merge ended */ }
+        catch (Npgsql.NpgsqlException) { /* the database is away: the merge itself will find out */ }
     }
 
     /// <summary>Re-enqueues what a dead worker or a lost enqueue left: expired chunk leases, untaken merges, unstarted audits.</summary>
@@ -131,6 +164,9 @@ public sealed partial class AuditJobs(ChunkStore chunks, AuditInputsLoader loade
         }
         catch (OperationCanceledException) { /* the chunk ended */ }
     }
+
+    [LoggerMessage(EventId = 4003, Level = LogLevel.Information, Message = "audit {AuditId} was cancelled: its merge and analysis stopped")]
+    private partial void LogMergeStopped(Guid auditId);
 
     [LoggerMessage(EventId = 4001, Level = LogLevel.Information, Message = "audit {AuditId} started with {Chunks} chunks")]
     private partial void LogStarted(Guid auditId, int chunks);

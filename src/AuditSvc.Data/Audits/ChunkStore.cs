@@ -112,6 +112,14 @@ public sealed class ChunkStore(NpgsqlDataSource db)
     /// Takes the merge of an audit in merging whose merge lease is free or expired (or any, with
     /// <paramref name="force"/>); returns the attempt number, or null when the merge is not to be taken.
     /// </summary>
+    /// <summary>True once the audit was cancelled (a merge in progress stops at its next check).</summary>
+    public async Task<bool> IsCancelledAsync(Guid auditId, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        return await conn.ExecuteScalarAsync<bool>(new CommandDefinition(
+            "SELECT EXISTS (SELECT 1 FROM audits WHERE id = @auditId AND state = 'cancelled')", new { auditId }, cancellationToken: ct));
+    }
+
     public async Task<int?> ClaimMergeAsync(Guid auditId, TimeSpan lease, bool force, CancellationToken ct)
     {
         await using var conn = await db.OpenConnectionAsync(ct);

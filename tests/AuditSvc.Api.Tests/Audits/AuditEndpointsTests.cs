@@ -119,6 +119,29 @@ public sealed class AuditEndpointsTests
     }
 
     [PgFact]
+    public async Task Cancel_DuringMerge_StopsTheAnalysisAndFreesTheWorker()
+    {
+        var engine = new CountingEngine { FinishTime = TimeSpan.FromMinutes(10) };
+        await using var svc = await ServiceUnderTest.StartAsync(workers: 1, engine: engine);
+        using var client = await svc.ClientAsync("team-a");
+        var model = await Uploads.ModelAsync(client);
+        var set = await Uploads.ImageSetAsync(client, 2);
+        var id = await SubmitAsync(client, model, set, 2);
+        await engine.FinishStarted.Task.WaitAsync(TimeSpan.FromMinutes(2)); // guards against a hang; not a timing check
+
+        var cancelled = await client.PostAsync($"/api/audits/{id}/cancel", null);
+
+        Assert.Equal("cancelled", (await cancelled.Content.ReadFromJsonAsync<AuditSnapshot>())!.State);
+        // The ten-minute analysis stops (the guard only keeps a regression from hanging the run) ...
+        await engine.FinishCancelled.Task.WaitAsync(TimeSpan.FromMinutes(2));
+        // ... and the only worker is free for the next audit, which finishes.
+        engine.FinishTime = TimeSpan.Zero;
+        var next = await SubmitAsync(client, model, set, 2);
+        Assert.Equal("done", (await svc.WaitForEndAsync(client, next)).State);
+        Assert.Equal("cancelled", (await client.GetFromJsonAsync<AuditSnapshot>($"/api/audits/{id}"))!.State);
+    }
+
+    [PgFact]
     public async Task List_UnknownVerdictFilter_Returns400NamingVerdict()
     {
         await using var svc = await ServiceUnderTest.StartAsync(workers: 0);

@@ -105,9 +105,8 @@ public sealed partial class RouteAccessTests(AccessFixture f) : IClassFixture<Ac
         Assert.Equal(HttpStatusCode.Unauthorized, (await client.PostAsync($"/api/audits/{f.AuditId}/cancel", null)).StatusCode);
     }
 
-    // Fails on this branch today (201): the folder route's containment is the "hostile" branch's fix
-    // (commit c4c2e21, "the folder route registers only the calling team's folders"). Un-skip when it is merged.
-    [PgFact(Skip = "team B can register team A's uploaded folder until the hostile branch's folder containment is merged")]
+    // Team B must not register the folder of team A's upload (it answered 201 before the folder route's containment).
+    [PgFact]
     public async Task RegisterFolder_AnotherTeamsUploadedFolder_IsRefused()
     {
         using var response = await f.OtherApi.PostAsJsonAsync("/api/image-sets/folder", new { path = f.ImageSetFolder, name = "borrowed" });
