@@ -77,12 +77,15 @@ public static class AuditEndpoints
 
     private static async Task<IResult> List(HttpContext http, AuditStore audits, CancellationToken ct,
         [FromQuery] Guid? modelId, [FromQuery] Guid? imageSetId, [FromQuery] string? verdict, [FromQuery] string? state,
-        [FromQuery] int? limit)
+        [FromQuery] int? limit, [FromQuery] int? offset)
     {
         if (verdict is not null && !Verdicts.Contains(verdict)) return ProblemHandling.Field("verdict", "must be pass or block");
         if (state is not null && !States.Contains(state)) return ProblemHandling.Field("state", $"must be one of {string.Join(", ", States)}");
         if (limit is < 1 or > 1000) return ProblemHandling.Field("limit", "must be between 1 and 1000");
-        var rows = await audits.ListAsync(http.User.TeamId(), new AuditFilter(modelId, imageSetId, verdict, state, limit ?? 100), ct);
+        if (offset is < 0 or > Paging.MaxOffset) return ProblemHandling.Field("offset", $"must be 0 to {Paging.MaxOffset}");
+        var take = limit ?? Paging.DefaultLimit;
+        var rows = await audits.ListAsync(http.User.TeamId(), new AuditFilter(modelId, imageSetId, verdict, state, take) { Offset = offset ?? 0 }, ct);
+        Paging.LinkNext(http, take, offset ?? 0, rows.Count);
         var now = DateTime.UtcNow;
         return TypedResults.Ok(rows.Select(a => AuditResponse.From(a, now)).ToList());
     }

@@ -44,7 +44,7 @@ public static class ImageSetEndpoints
         group.MapPost("/folder", Register)
             .WithSummary("Register a folder of this team (under incoming/<team>/ or inside its own uploads) as an image set; returns the intake report.")
             .ProducesValidationProblem();
-        group.MapGet("/", List);
+        group.MapGet("/", List).WithSummary("The team's image sets, newest first, a page at a time (limit 1–500, default 100; offset); a full page links the next.").Produces<List<ImageSetResponse>>();
         group.MapGet("/{id:guid}", Get);
         return api;
     }
@@ -115,8 +115,15 @@ public static class ImageSetEndpoints
         return "sha256:" + Convert.ToHexStringLower(sha.GetHashAndReset());
     }
 
-    private static async Task<Ok<List<ImageSetResponse>>> List(HttpContext http, ImageSetStore sets, CancellationToken ct) =>
-        TypedResults.Ok((await sets.ListAsync(http.User.TeamId(), ct)).Select(ImageSetResponse.From).ToList());
+    private static async Task<IResult> List(HttpContext http, ImageSetStore sets, CancellationToken ct,
+        [Microsoft.AspNetCore.Mvc.FromQuery] int? limit, [Microsoft.AspNetCore.Mvc.FromQuery] int? offset)
+    {
+        var (take, skip, problem) = Paging.Read(limit, offset);
+        if (problem is not null) return problem;
+        var rows = await sets.ListAsync(http.User.TeamId(), take, skip, ct);
+        Paging.LinkNext(http, take, skip, rows.Count);
+        return TypedResults.Ok(rows.Select(ImageSetResponse.From).ToList());
+    }
 
     private static async Task<Results<Ok<ImageSetResponse>, ProblemHttpResult>> Get(Guid id, HttpContext http, ImageSetStore sets, CancellationToken ct) =>
         await sets.GetAsync(http.User.TeamId(), id, ct) is { } s

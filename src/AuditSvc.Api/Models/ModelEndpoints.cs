@@ -28,7 +28,7 @@ public static class ModelEndpoints
             .Accepts<IFormFile>("multipart/form-data")
             .WithSummary("Upload an .onnx model (form part 'model') with an optional input recipe (field 'recipe', JSON) and 'name'; returns the layer catalogue.")
             .ProducesValidationProblem();
-        group.MapGet("/", List);
+        group.MapGet("/", List).WithSummary("The team's models, newest first, a page at a time (limit 1–500, default 100; offset); a full page links the next.").Produces<List<ModelResponse>>();
         group.MapGet("/{id:guid}", Get).WithName("GetModel");
         return api;
     }
@@ -47,8 +47,15 @@ public static class ModelEndpoints
         return TypedResults.Created($"/api/models/{row.Id}", ModelResponse.From(row));
     }
 
-    private static async Task<Ok<List<ModelResponse>>> List(HttpContext http, ModelStore models, CancellationToken ct) =>
-        TypedResults.Ok((await models.ListAsync(http.User.TeamId(), ct)).Select(ModelResponse.From).ToList());
+    private static async Task<IResult> List(HttpContext http, ModelStore models, CancellationToken ct,
+        [Microsoft.AspNetCore.Mvc.FromQuery] int? limit, [Microsoft.AspNetCore.Mvc.FromQuery] int? offset)
+    {
+        var (take, skip, problem) = Paging.Read(limit, offset);
+        if (problem is not null) return problem;
+        var rows = await models.ListAsync(http.User.TeamId(), take, skip, ct);
+        Paging.LinkNext(http, take, skip, rows.Count);
+        return TypedResults.Ok(rows.Select(ModelResponse.From).ToList());
+    }
 
     private static async Task<Results<Ok<ModelResponse>, ProblemHttpResult>> Get(Guid id, HttpContext http, ModelStore models, CancellationToken ct) =>
         await models.GetAsync(http.User.TeamId(), id, ct) is { } m

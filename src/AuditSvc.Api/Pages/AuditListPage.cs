@@ -53,8 +53,8 @@ internal static class AuditListPage
 
         var team = http.User.TeamId();
         var rows = await audits.ListAsync(team, new AuditFilter(modelId, setId, verdict, state, Limit, q), ct);
-        var modelNames = (await models.ListAsync(team, ct)).ToDictionary(m => m.Id, m => m.Name);
-        var setNames = (await sets.ListAsync(team, ct)).ToDictionary(s => s.Id, s => s.Name);
+        var modelNames = (await models.NamesAsync(team, ct)).ToDictionary();
+        var setNames = (await sets.NamesAsync(team, ct)).ToDictionary();
         var now = DateTime.UtcNow;
         bool filtered = verdict is not null || state is not null || modelId is not null || setId is not null || q is not null;
 

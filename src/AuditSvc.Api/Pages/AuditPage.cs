@@ -99,9 +99,9 @@ internal static class AuditPage
             return result is { Attributes: not null, Findings: not null, CueGroups: not null, Candidates: not null, Groups: not null, Model: not null, ImageSet: not null, Coverage: not null, Reasons: not null, Policy: not null }
                 ? result : null;
         }
-        catch (System.Text.Json.JsonException)
+        catch (Exception e) when (e is System.Text.Json.JsonException or AuditInputException)
         {
-            return null;
+            return null; // AuditJson refuses documents it did not write (no schema_version): show the verdict alone
         }
     }
 

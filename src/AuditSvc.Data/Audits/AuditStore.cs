@@ -9,7 +9,11 @@ public sealed record AuditRow(Guid Id, Guid TeamId, Guid ModelId, Guid ImageSetI
 
 /// <param name="Search">Text found in the model's or the image set's name, or the start of the audit's id (case-insensitive).</param>
 public sealed record AuditFilter(Guid? ModelId = null, Guid? ImageSetId = null, string? Verdict = null,
-    string? State = null, int Limit = 100, string? Search = null);
+    string? State = null, int Limit = 100, string? Search = null)
+{
+    /// <summary>Rows to skip (paging).</summary>
+    public int Offset { get; init; }
+}
 
 /// <summary>Audit rows as a team sees them: every read and write is scoped by team id.</summary>
 public sealed class AuditStore(NpgsqlDataSource db)
@@ -97,12 +101,12 @@ public sealed class AuditStore(NpgsqlDataSource db)
                    OR EXISTS (SELECT 1 FROM models m WHERE m.id = audits.model_id AND m.name ILIKE @pattern ESCAPE '\')
                    OR EXISTS (SELECT 1 FROM image_sets s WHERE s.id = audits.image_set_id AND s.name ILIKE @pattern ESCAPE '\')
                    OR audits.id::text LIKE @idPrefix ESCAPE '\')
-            ORDER BY created_at DESC
-            LIMIT @limit
+            ORDER BY created_at DESC, id
+            LIMIT @limit OFFSET @offset
             """, new
             {
                 teamId, modelId = filter.ModelId, imageSetId = filter.ImageSetId, verdict = filter.Verdict,
-                state = filter.State, limit = Math.Clamp(filter.Limit, 1, 1000),
+                state = filter.State, limit = Math.Clamp(filter.Limit, 1, 1000), offset = Math.Max(0, filter.Offset),
                 pattern = filter.Search is { Length: > 0 } q ? "%" + Like(q) + "%" : null,
                 idPrefix = filter.Search is { Length: > 0 } p ? Like(p.ToLowerInvariant()) + "%" : null,
             },

@@ -35,11 +35,23 @@ public sealed class ModelStore(NpgsqlDataSource db)
             new { id, teamId }, cancellationToken: ct));
     }
 
-    public async Task<IReadOnlyList<ModelRow>> ListAsync(Guid teamId, CancellationToken ct)
+    /// <summary>The team's rows, newest first, one page at a time (<paramref name="limit"/> is clamped to 1..500).</summary>
+    public async Task<IReadOnlyList<ModelRow>> ListAsync(Guid teamId, int limit, int offset, CancellationToken ct)
     {
         await using var conn = await db.OpenConnectionAsync(ct);
         return (await conn.QueryAsync<ModelRow>(new CommandDefinition(
-            $"SELECT {Columns} FROM models WHERE team_id = @teamId ORDER BY created_at DESC",
-            new { teamId }, cancellationToken: ct))).ToList();
+            $"SELECT {Columns} FROM models WHERE team_id = @teamId ORDER BY created_at DESC, id LIMIT @limit OFFSET @offset",
+            new { teamId, limit = Math.Clamp(limit, 1, MaxPage), offset = Math.Max(0, offset) }, cancellationToken: ct))).ToList();
+    }
+
+    /// <summary>Largest page a list returns.</summary>
+    public const int MaxPage = 500;
+
+    /// <summary>Every name of the team's rows by id (names only: what pages need to show names instead of ids).</summary>
+    public async Task<IReadOnlyDictionary<Guid, string>> NamesAsync(Guid teamId, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        return (await conn.QueryAsync<(Guid Id, string Name)>(new CommandDefinition(
+            "SELECT id, name FROM models WHERE team_id = @teamId", new { teamId }, cancellationToken: ct))).ToDictionary(r => r.Id, r => r.Name);
     }
 }
