@@ -37,16 +37,6 @@ label { font-weight: 600; }
 .progress { position: relative; width: 100%; max-width: 520px; height: 16px; background: #eceff2; border-radius: 3px; overflow: hidden; }
 .progress span { position: absolute; left: 0; top: 0; bottom: 0; background: var(--accent); }
 .progress.small { max-width: 120px; height: 8px; display: inline-block; vertical-align: middle; }
-.headline { display: flex; flex-wrap: wrap; gap: 12px 24px; align-items: center; margin: 8px 0 16px; }
-.reasons-top { margin: 0; padding-left: 20px; }
-.review-panel { max-width: 1200px; margin: 0 auto; padding: 0 24px 32px; }
-.review-item { border: 1px solid var(--line); border-radius: 6px; padding: 8px 16px 12px; margin: 10px 0; }
-.review-item h3 { margin: 4px 0 6px; }
-form.review { display: flex; flex-wrap: wrap; gap: 8px; align-items: flex-start; margin-top: 6px; }
-form.review textarea { width: min(480px, 100%); height: 2.4em; }
-.reviews { margin: 4px 0; font-size: 13px; }
-.reviews li { margin: 2px 0; }
-.decision { font-weight: 700; }
 .crumbs { margin: 12px 0 0; color: var(--muted); }
 .meta { color: var(--muted); margin: 0 0 8px; }
 .decision-view > .verdict { margin-top: 4px; }
