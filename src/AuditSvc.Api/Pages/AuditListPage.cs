@@ -28,7 +28,7 @@ internal static class AuditListPage
         return ui;
     }
 
-    private static async Task<IResult> ShowAsync(HttpContext http, AuditStore audits, ModelStore models, ImageSetStore sets,
+    private static async Task<IResult> ShowAsync(HttpContext http, AuditStore audits, ModelStore models, ImageSetStore sets, ReviewStore reviews,
         string? verdict, string? state, string? model, string? set, string? q, CancellationToken ct)
     {
         verdict = string.IsNullOrEmpty(verdict) ? null : verdict;
@@ -55,6 +55,7 @@ internal static class AuditListPage
         var rows = await audits.ListAsync(team, new AuditFilter(modelId, setId, verdict, state, Limit, q), ct);
         var modelNames = (await models.NamesAsync(team, ct)).ToDictionary();
         var setNames = (await sets.NamesAsync(team, ct)).ToDictionary();
+        var overridden = await reviews.OverriddenVerdictsAsync(team, rows.Where(a => a.Verdict is not null).Select(a => a.Id).ToList(), ct);
         var now = DateTime.UtcNow;
         bool filtered = verdict is not null || state is not null || modelId is not null || setId is not null || q is not null;
 
@@ -67,7 +68,7 @@ internal static class AuditListPage
         {
             sb.Append("<table id=\"audits\"><thead><tr><th>Model</th><th>Image set</th><th>Verdict</th><th>State</th>")
               .Append("<th>Progress</th><th>Created</th></tr></thead><tbody>\n");
-            foreach (var a in rows) Row(sb, AuditResponse.From(a, now), modelNames, setNames);
+            foreach (var a in rows) Row(sb, AuditResponse.From(a, now), modelNames, setNames, overridden.GetValueOrDefault(a.Id));
             sb.Append("</tbody></table>\n");
             if (rows.Count == Limit) sb.Append("<p class=\"muted\">Showing the newest ").Append(Limit).Append("; filter or search to see others.</p>\n");
         }
@@ -103,7 +104,7 @@ internal static class AuditListPage
     private static void Option(StringBuilder sb, string value, string text, string selected) =>
         sb.Append("<option value=\"").Append(E(value)).Append('"').Append(value == selected ? " selected" : "").Append('>').Append(E(text)).Append("</option>");
 
-    private static void Row(StringBuilder sb, AuditResponse a, Dictionary<Guid, string> models, Dictionary<Guid, string> sets)
+    private static void Row(StringBuilder sb, AuditResponse a, Dictionary<Guid, string> models, Dictionary<Guid, string> sets, string? overriddenTo)
     {
         var p = a.Progress;
         var share = p.ItemsTotal > 0 ? (double)p.ItemsDone / p.ItemsTotal : 0;
@@ -111,6 +112,10 @@ internal static class AuditListPage
         sb.Append("<tr><td><a href=\"/ui/audits/").Append(a.Id).Append("\">").Append(E(modelName)).Append("</a></td>")
           .Append("<td>").Append(E(sets.GetValueOrDefault(a.ImageSetId, "set " + a.ImageSetId.ToString()[..8]))).Append("</td><td>");
         if (a.Verdict is null) sb.Append("<span class=\"muted\">—</span>");
+        else if (overriddenTo is not null && overriddenTo != a.Verdict)
+            // The verdict that stands is the override's; the engine's stays visible beside it.
+            sb.Append("<span class=\"pill ").Append(VerdictClass(overriddenTo)).Append("\">").Append(overriddenTo == "block" ? "✕ " : "✓ ").Append(E(overriddenTo))
+              .Append("</span> <span class=\"small muted\">overridden; engine: ").Append(E(a.Verdict)).Append("</span>");
         else sb.Append("<span class=\"pill ").Append(VerdictClass(a.Verdict)).Append("\">").Append(a.Verdict == "block" ? "✕ " : "✓ ").Append(E(a.Verdict)).Append("</span>");
         sb.Append("</td><td>").Append(E(a.State)).Append("</td>")
           .Append("<td class=\"small\"><span class=\"progress small\"><span style=\"width:").Append(Num(share * 100, "0.#")).Append("%\"></span></span> ")

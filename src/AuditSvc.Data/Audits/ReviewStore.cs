@@ -159,6 +159,21 @@ public sealed class ReviewStore(NpgsqlDataSource db)
         return new EffectiveVerdict(auditId, a.State, a.Verdict, a.Verdict is null ? null : latest?.Verdict ?? a.Verdict, latest);
     }
 
+    /// <summary>The verdict each of these audits was overridden to (the latest override), for audits that have one.</summary>
+    public async Task<IReadOnlyDictionary<Guid, string>> OverriddenVerdictsAsync(Guid teamId, IReadOnlyCollection<Guid> auditIds, CancellationToken ct)
+    {
+        ArgumentNullException.ThrowIfNull(auditIds);
+        if (auditIds.Count == 0) return new Dictionary<Guid, string>();
+        await using var conn = await db.OpenConnectionAsync(ct);
+        return (await conn.QueryAsync<(Guid AuditId, string Verdict)>(new CommandDefinition(
+            """
+            SELECT DISTINCT ON (r.audit_id) r.audit_id, r.verdict
+            FROM reviews r JOIN audits a ON a.id = r.audit_id
+            WHERE a.team_id = @teamId AND r.audit_id = ANY(@ids) AND r.verdict IS NOT NULL
+            ORDER BY r.audit_id, r.created_at DESC, r.id DESC
+            """, new { teamId, ids = auditIds.ToArray() }, cancellationToken: ct))).ToDictionary(r => r.AuditId, r => r.Verdict);
+    }
+
     private static async Task<bool> CueExistsAsync(NpgsqlConnection conn, NpgsqlTransaction tx, Guid auditId, string cue, CancellationToken ct)
     {
         var findings = await conn.QueryAsync<(string, string)>(new CommandDefinition(

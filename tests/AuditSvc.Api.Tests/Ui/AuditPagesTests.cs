@@ -68,6 +68,8 @@ public sealed class AuditPagesTests
         Assert.Contains("Verdict override → block", after, StringComparison.Ordinal);
         Assert.DoesNotContain("someone else", after, StringComparison.Ordinal);
         Assert.Equal("block", (await api.GetFromJsonAsync<JsonElement>($"/api/audits/{id}/verdict")).GetProperty("verdict").GetString());
+        var list = await browser.GetPageAsync("/ui/audits");
+        Assert.Contains("✕ block</span> <span class=\"small muted\">overridden; engine: pass</span>", list, StringComparison.Ordinal);
     }
 
     [PgFact]
