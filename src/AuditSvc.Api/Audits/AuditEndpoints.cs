@@ -81,11 +81,11 @@ public static class AuditEndpoints
     {
         if (verdict is not null && !Verdicts.Contains(verdict)) return ProblemHandling.Field("verdict", "must be pass or block");
         if (state is not null && !States.Contains(state)) return ProblemHandling.Field("state", $"must be one of {string.Join(", ", States)}");
-        if (limit is < 1 or > 1000) return ProblemHandling.Field("limit", "must be between 1 and 1000");
-        if (offset is < 0 or > Paging.MaxOffset) return ProblemHandling.Field("offset", $"must be 0 to {Paging.MaxOffset}");
-        var take = limit ?? Paging.DefaultLimit;
-        var rows = await audits.ListAsync(http.User.TeamId(), new AuditFilter(modelId, imageSetId, verdict, state, take) { Offset = offset ?? 0 }, ct);
-        Paging.LinkNext(http, take, offset ?? 0, rows.Count);
+        // Audit rows are small: a page may hold up to 1,000 of them.
+        var (take, skip, problem) = Paging.Read(limit, offset, maxLimit: 1000);
+        if (problem is not null) return problem;
+        var rows = await audits.ListAsync(http.User.TeamId(), new AuditFilter(modelId, imageSetId, verdict, state, take) { Offset = skip }, ct);
+        Paging.LinkNext(http, take, skip, rows.Count);
         var now = DateTime.UtcNow;
         return TypedResults.Ok(rows.Select(a => AuditResponse.From(a, now)).ToList());
     }

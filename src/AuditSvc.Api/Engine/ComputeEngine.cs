@@ -96,13 +96,13 @@ public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine
     public Task<byte[]?> RenderExemplarAsync(AuditInputs inputs, int item, BoxDto box, bool whole, CancellationToken ct) => Task.Run(() =>
     {
         if ((uint)item >= (uint)inputs.Items.Items.Count) return null;
-        // The stored recipe is the one the pass used; no need to load the model for a picture.
-        // Models stored before recipes kept the recipe file's words were written in the API's camelCase.
-        var recipe = RecipeText.TryRead(inputs.RecipeJson)
-            ?? JsonSerializer.Deserialize<AuditSvc.Core.Models.InputRecipe>(inputs.RecipeJson, ApiJson.Options)
-            ?? throw new AuditInputException("recipe", "is empty");
-        return new ExemplarImages(i => inputs.Items.Items[i].Path, recipe).Png(item, box, whole);
+        // A page asks for dozens of pictures of one audit: its recipe is read and its cutter built once, not per picture.
+        if (_pictures.Count > 16) _pictures.Clear();
+        var cutter = _pictures.GetOrAdd(inputs.AuditId, _ => new ExemplarImages(i => inputs.Items.Items[i].Path, AuditSvc.Api.Models.StoredRecipe.Read(inputs.RecipeJson)));
+        return cutter.Png(item, box, whole);
     }, ct);
+
+    private readonly ConcurrentDictionary<Guid, ExemplarImages> _pictures = new();
 
     private static AuditOutcome Outcome(string json, AuditResult result)
     {

@@ -12,10 +12,10 @@ public static class Paging
     public const int MaxLimit = 500;
     public const int MaxOffset = 10_000_000;
 
-    /// <summary>The page asked for, or a problem naming the field.</summary>
-    public static (int Limit, int Offset, IResult? Problem) Read(int? limit, int? offset)
+    /// <summary>The page asked for, or a problem naming the field; <paramref name="maxLimit"/> for a list of small rows.</summary>
+    public static (int Limit, int Offset, IResult? Problem) Read(int? limit, int? offset, int maxLimit = MaxLimit)
     {
-        if (limit is < 1 or > MaxLimit) return (0, 0, ProblemHandling.Field("limit", $"must be 1 to {MaxLimit}"));
+        if (limit is < 1 || limit > maxLimit) return (0, 0, ProblemHandling.Field("limit", $"must be 1 to {maxLimit}"));
         if (offset is < 0 or > MaxOffset) return (0, 0, ProblemHandling.Field("offset", $"must be 0 to {MaxOffset}"));
         return (limit ?? DefaultLimit, offset ?? 0, null);
     }

@@ -5,6 +5,7 @@ using AuditSvc.Api.Artifacts;
 using AuditSvc.Api.Auth;
 using AuditSvc.Api.Engine;
 using AuditSvc.Api.Hosting;
+using AuditSvc.Api.Models;
 using AuditSvc.Compute.ImageSets;
 using AuditSvc.Core;
 using AuditSvc.Core.ImageSets;
@@ -86,12 +87,7 @@ public static class ImageSetEndpoints
     {
         if (modelId is not { } id) return null;
         var model = await models.GetAsync(http.User.TeamId(), id, ct) ?? throw new AuditInputException("modelId", $"no model {id} for this team");
-        using var recipe = JsonDocument.Parse(model.Recipe);
-        // The recipe file's words; models stored before recipes kept them were spelt in camelCase.
-        return (recipe.RootElement.TryGetProperty("class_names", out var names) || recipe.RootElement.TryGetProperty("classNames", out names))
-               && names.ValueKind == JsonValueKind.Array
-            ? names.EnumerateArray().Select(e => e.GetString() ?? "").ToList()
-            : null;
+        return StoredRecipe.ClassNames(model.Recipe);
     }
 
     private static async Task<Created<ImageSetResponse>> AddAsync(HttpContext http, ArtifactStore artifacts, IAuditEngine engine,

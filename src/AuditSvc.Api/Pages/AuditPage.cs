@@ -60,12 +60,13 @@ internal static class AuditPage
         }
         sb.Append("</div>\n");
 
-        var recorded = await reviews.ListAsync(team, id, ct) ?? [];
+        // One read of the reviews serves the cards, the history and the override.
         var history = await reviews.HistoryAsync(team, id, ct) ?? [];
-        var effective = await reviews.EffectiveVerdictAsync(team, id, ct);
+        var recorded = history.Select(h => h.Review).ToList();
+        var overridden = ReviewStore.LatestOverride(recorded);
         Guid? just = Guid.TryParse(http.Request.Query["recorded"], out var r) ? r : null;
         var token = PageForms.TokenField(http);
-        if (effective?.Override is { } overridden) CueReview.OverrideNotice(sb, overridden, a.Verdict, just);
+        if (overridden is not null) CueReview.OverrideNotice(sb, overridden, a.Verdict, just);
         var result = TryRead(json);
         if (result is null)
         {
@@ -87,7 +88,7 @@ internal static class AuditPage
         CueReview.OverrideForm(sb, id, token, a.Verdict);
         sb.Append("<p class=\"more-links\"><a href=\"/ui/audits/").Append(id).Append("/report\">The full report</a> (every finding, place pattern, group accuracy, ")
           .Append("problem and the policy; one self-contained file) · <a href=\"/api/audits/").Append(id).Append("/findings\">findings as JSON</a></p></div>\n");
-        return Html(Page(http, $"{title} · {effective?.Verdict ?? a.Verdict}", sb.ToString()));
+        return Html(Page(http, $"{title} · {overridden?.Verdict ?? a.Verdict}", sb.ToString()));
     }
 
     /// <summary>The engine's audit.json, or null when the stored result is not one (it lacks the parts the pages draw).</summary>

@@ -29,6 +29,6 @@ internal sealed class LinkedExemplars(Guid auditId) : IExemplarImages
         return v[2] >= 1 && v[3] >= 1 ? new BoxDto(v[0], v[1], v[2], v[3]) : null;
     }
 
-    /// <summary>No model input the service takes is larger than this on a side.</summary>
-    private const int MaxSide = 16_384;
+    /// <summary>No model input intake takes is larger than this on a side, so no peak box is either.</summary>
+    private const long MaxSide = AuditSvc.Compute.Models.OnnxGuard.MaxInputSide;
 }

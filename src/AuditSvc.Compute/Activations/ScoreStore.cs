@@ -72,7 +72,7 @@ public sealed class ScoreStore : IUnitScores, IDisposable
                 var byUnit = new Half[data.Length];
                 for (int r = 0; r < rows; r++)
                     for (int u = 0; u < UnitCount; u++) byUnit[(long)u * rows + r] = data[(long)r * UnitCount + u];
-                File.WriteAllBytes(BlockPath(block), MemoryMarshal.AsBytes(byUnit.AsSpan()).ToArray());
+                File.WriteAllBytes(BlockPath(block), MemoryMarshal.AsBytes(byUnit.AsSpan()));
                 _memory.Remove(block);
                 _onDisk.Add(block);
                 _memoryBytes -= data.Length * 2L;
@@ -103,8 +103,8 @@ public sealed class ScoreStore : IUnitScores, IDisposable
             // Unit-major on disk: the units asked for are one contiguous run of count × rows values.
             slice ??= new Half[(long)count * RowsPerBlock];
             var span = slice.AsSpan(0, count * rows);
-            using (var file = new FileStream(BlockPath(block), FileMode.Open, FileAccess.Read, FileShare.Read, 1, FileOptions.RandomAccess))
-                RandomAccess.Read(file.SafeFileHandle, MemoryMarshal.AsBytes(span), (long)firstUnit * rows * 2);
+            using (var file = File.OpenHandle(BlockPath(block), FileMode.Open, FileAccess.Read, FileShare.Read, FileOptions.RandomAccess))
+                RandomAccess.Read(file, MemoryMarshal.AsBytes(span), (long)firstUnit * rows * 2);
             for (int k = 0; k < count; k++)
             {
                 var values = span.Slice(k * rows, rows);

@@ -147,6 +147,9 @@ public sealed class ReviewStore(NpgsqlDataSource db)
         return rows.Select(r => new ReviewHistoryEntry(r, r.SupersededBy is { } s ? byId.GetValueOrDefault(s) : null)).ToList();
     }
 
+    /// <summary>The override in force among an audit's reviews (in the order they were recorded): the latest one.</summary>
+    public static ReviewRow? LatestOverride(IEnumerable<ReviewRow> rows) => rows.LastOrDefault(r => r.Subject == "verdict");
+
     /// <summary>The engine's verdict, the latest override of it and the verdict that stands; null when not the team's.</summary>
     public async Task<EffectiveVerdict?> EffectiveVerdictAsync(Guid teamId, Guid auditId, CancellationToken ct)
     {
@@ -155,7 +158,7 @@ public sealed class ReviewStore(NpgsqlDataSource db)
             "SELECT state AS State, verdict AS Verdict FROM audits WHERE id = @auditId AND team_id = @teamId",
             new { auditId, teamId }, cancellationToken: ct));
         if (audit is not { } a) return null;
-        var latest = (await RowsAsync(conn, null, auditId, ct)).LastOrDefault(r => r.Subject == "verdict");
+        var latest = LatestOverride(await RowsAsync(conn, null, auditId, ct));
         return new EffectiveVerdict(auditId, a.State, a.Verdict, a.Verdict is null ? null : latest?.Verdict ?? a.Verdict, latest);
     }
 

@@ -10,21 +10,11 @@ namespace AuditSvc.Compute.Tests.ImageSets;
 /// </summary>
 public class PathContainmentTests
 {
-    private static readonly string[] Classes = ["cat", "dog"];
+    private static readonly string[] Classes = ContainmentFiles.Classes;
 
-    private static string NewDir(string name)
-    {
-        var d = Path.Combine(Path.GetTempPath(), $"auditsvc-escape-{name}-" + Guid.NewGuid().ToString("N"));
-        Directory.CreateDirectory(d);
-        return d;
-    }
+    private static string NewDir(string name) => ContainmentFiles.NewDir("escape", name);
 
-    private static void Png(string path)
-    {
-        Directory.CreateDirectory(Path.GetDirectoryName(path)!);
-        using var img = new Image<Rgb24>(8, 8, new Rgb24(90, 90, 90));
-        img.SaveAsPng(path);
-    }
+    private static void Png(string path) => ContainmentFiles.Png(path);
 
     /// <summary>A set with one good row and the escaping rows; returns each row's reason (row 1 is the good one).</summary>
     private static (AuditSvc.Core.ImageSets.ItemTable Table, Dictionary<int, string> Reasons) Intake(string dir, IEnumerable<string> rows, string? imagesRoot = null)

@@ -11,21 +11,11 @@ namespace AuditSvc.Compute.Tests.ImageSets;
 /// </summary>
 public class SetIntakeContainmentTests
 {
-    private static readonly string[] Classes = ["cat", "dog"];
+    private static readonly string[] Classes = ContainmentFiles.Classes;
 
-    private static string NewDir(string name)
-    {
-        var d = Path.Combine(Path.GetTempPath(), $"auditsvc-contain-{name}-" + Guid.NewGuid().ToString("N"));
-        Directory.CreateDirectory(d);
-        return d;
-    }
+    private static string NewDir(string name) => ContainmentFiles.NewDir("contain", name);
 
-    private static void Png(string path)
-    {
-        Directory.CreateDirectory(Path.GetDirectoryName(path)!);
-        using var img = new Image<Rgb24>(8, 8, new Rgb24(90, 90, 90));
-        img.SaveAsPng(path);
-    }
+    private static void Png(string path) => ContainmentFiles.Png(path);
 
     [Fact]
     public void Read_RowsLeavingTheSetsFolder_AreRefusedWithoutTouchingTheFile()
