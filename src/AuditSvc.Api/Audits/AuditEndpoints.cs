@@ -25,7 +25,7 @@ public static class AuditEndpoints
     {
         var group = api.MapGroup("/audits").WithTags("audits");
         group.MapPost("/", Submit).WithSummary("Queue an audit; 202 with its Location.").ProducesValidationProblem();
-        group.MapGet("/", List).WithSummary("Audits of the team, newest first; filter by modelId, imageSetId, verdict, state.")
+        group.MapGet("/", List).WithSummary("Audits of the team, newest first; filter by modelId, imageSetId, verdict (the engine's), state. `verdict` in each is the one that stands (a signed override's), `engineVerdict` the engine's.")
             .ProducesValidationProblem();
         group.MapGet("/{id:guid}", Get).WithSummary("State and progress (images done/total, rate, ETA).");
         group.MapGet("/{id:guid}/result", Result).WithSummary("audit.json, the same document the command line writes.")
@@ -75,7 +75,7 @@ public static class AuditEndpoints
             : doc.RootElement.EnumerateArray().Select(a => a.TryGetProperty("name", out var n) ? n.GetString() ?? "" : "").ToList();
     }
 
-    private static async Task<IResult> List(HttpContext http, AuditStore audits, CancellationToken ct,
+    private static async Task<IResult> List(HttpContext http, AuditStore audits, ReviewStore reviews, CancellationToken ct,
         [FromQuery] Guid? modelId, [FromQuery] Guid? imageSetId, [FromQuery] string? verdict, [FromQuery] string? state,
         [FromQuery] int? limit, [FromQuery] int? offset)
     {
@@ -84,16 +84,21 @@ public static class AuditEndpoints
         // Audit rows are small: a page may hold up to 1,000 of them.
         var (take, skip, problem) = Paging.Read(limit, offset, maxLimit: 1000);
         if (problem is not null) return problem;
-        var rows = await audits.ListAsync(http.User.TeamId(), new AuditFilter(modelId, imageSetId, verdict, state, take) { Offset = skip }, ct);
+        var team = http.User.TeamId();
+        var rows = await audits.ListAsync(team, new AuditFilter(modelId, imageSetId, verdict, state, take) { Offset = skip }, ct);
         Paging.LinkNext(http, take, skip, rows.Count);
+        var overrides = await reviews.OverriddenVerdictsAsync(team, rows.Where(a => a.Verdict is not null).Select(a => a.Id).ToList(), ct);
         var now = DateTime.UtcNow;
-        return TypedResults.Ok(rows.Select(a => AuditResponse.From(a, now)).ToList());
+        return TypedResults.Ok(rows.Select(a => AuditResponse.From(a, now, overrides.GetValueOrDefault(a.Id))).ToList());
     }
 
-    private static async Task<Results<Ok<AuditResponse>, ProblemHttpResult>> Get(Guid id, HttpContext http, AuditStore audits, CancellationToken ct) =>
-        await audits.GetAsync(http.User.TeamId(), id, ct) is { } a
-            ? TypedResults.Ok(AuditResponse.From(a, DateTime.UtcNow))
-            : NotFound(id);
+    private static async Task<Results<Ok<AuditResponse>, ProblemHttpResult>> Get(Guid id, HttpContext http, AuditStore audits, ReviewStore reviews, CancellationToken ct)
+    {
+        var team = http.User.TeamId();
+        if (await audits.GetAsync(team, id, ct) is not { } a) return NotFound(id);
+        var overrides = a.Verdict is null ? new Dictionary<Guid, string>() : await reviews.OverriddenVerdictsAsync(team, [id], ct);
+        return TypedResults.Ok(AuditResponse.From(a, DateTime.UtcNow, overrides.GetValueOrDefault(id)));
+    }
 
     private static async Task<IResult> Result(Guid id, HttpContext http, AuditStore audits, CancellationToken ct)
     {

@@ -10,10 +10,14 @@ public sealed record SubmitAudit(Guid? ModelId, Guid? ImageSetId, JsonElement? P
 /// <summary>Images done of total, the rate since the audit started, and the time left at that rate.</summary>
 public sealed record AuditProgress(int ItemsDone, int ItemsTotal, int ChunksDone, int ChunksTotal, double? ItemsPerSecond, double? EtaSeconds);
 
-public sealed record AuditResponse(Guid Id, Guid ModelId, Guid ImageSetId, string State, string? Verdict, string? Error,
-    AuditProgress Progress, JsonElement Policy, DateTime CreatedAt, DateTime? StartedAt, DateTime? FinishedAt)
+/// <summary>
+/// An audit's state. <see cref="Verdict"/> is the verdict that stands (a signed override's when there is one, as on the
+/// verdict endpoint and the pages); <see cref="EngineVerdict"/> is the engine's own, always shown beside it.
+/// </summary>
+public sealed record AuditResponse(Guid Id, Guid ModelId, Guid ImageSetId, string State, string? Verdict, string? EngineVerdict,
+    bool Overridden, string? Error, AuditProgress Progress, JsonElement Policy, DateTime CreatedAt, DateTime? StartedAt, DateTime? FinishedAt)
 {
-    public static AuditResponse From(AuditRow a, DateTime now)
+    public static AuditResponse From(AuditRow a, DateTime now, string? overriddenTo = null)
     {
         double? rate = null, eta = null;
         if (a.StartedAt is { } started && a.ItemsDone > 0)
@@ -22,7 +26,8 @@ public sealed record AuditResponse(Guid Id, Guid ModelId, Guid ImageSetId, strin
             if (seconds > 0) rate = a.ItemsDone / seconds;
             if (rate > 0 && a.State is "running") eta = (a.ItemsTotal - a.ItemsDone) / rate;
         }
-        return new AuditResponse(a.Id, a.ModelId, a.ImageSetId, a.State, a.Verdict, a.Error,
+        var overridden = a.Verdict is not null && overriddenTo is not null;
+        return new AuditResponse(a.Id, a.ModelId, a.ImageSetId, a.State, overridden ? overriddenTo : a.Verdict, a.Verdict, overridden, a.Error,
             new AuditProgress(a.ItemsDone, a.ItemsTotal, a.ChunksDone, a.ChunksTotal, rate, eta),
             JsonText.Element(a.Policy), a.CreatedAt, a.StartedAt, a.FinishedAt);
     }

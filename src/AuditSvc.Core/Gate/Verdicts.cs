@@ -60,7 +60,7 @@ public static class Verdicts
         {
             reasons.Add(new VerdictReason("leakage", e.Name, trigger.Name, trigger.Value, threshold,
                 string.Create(System.Globalization.CultureInfo.InvariantCulture,
-                    $"{trigger.Cue ?? e.Name}: {trigger.Name.Replace('_', ' ')} {trigger.Value:0.###} (95% interval {trigger.Low:0.###} to {trigger.High:0.###}, n = {trigger.N}, adjusted p {PText(trigger.QValue)}) reaches the threshold {threshold:0.###}")));
+                    $"{trigger.Cue ?? e.Name}: {MeasureNames.Words(trigger.Name)} {trigger.Value:0.###} (95% interval {trigger.Low:0.###} to {trigger.High:0.###}, n = {trigger.N}, adjusted p {PText(trigger.QValue)}) reaches the threshold {threshold:0.###}")));
             return (Block, Block, leakage, reasons);
         }
         if (e.Confounded)

@@ -12,16 +12,7 @@ public static class PlainWords
     private static readonly CultureInfo Inv = CultureInfo.InvariantCulture;
 
     /// <summary>What a measure is called on the page (audit.json keeps the snake_case name).</summary>
-    public static string MeasureName(string name) => name switch
-    {
-        "accuracy_gap" => "accuracy gap",
-        "colour_transfer" => "colour transfer",
-        "transplant" => "transplant",
-        "occlusion" => "occlusion",
-        "cramers_v" => "Cramér's V",
-        "leakage_rise" => "leakage rise",
-        _ => name.Replace('_', ' '),
-    };
+    public static string MeasureName(string name) => MeasureNames.Words(name);
 
     /// <summary>
     /// A short readable name for a layer's tensor: exporters name tensors by their path in the graph

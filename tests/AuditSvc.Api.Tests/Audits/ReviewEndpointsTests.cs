@@ -218,6 +218,12 @@ public sealed class ReviewEndpointsTests
         Assert.Equal(("block", "confirmed with the line lead", $"rita ({key.Prefix})", key.Id),
             (o.GetProperty("verdict").GetString(), o.GetProperty("reason").GetString(), o.GetProperty("reviewer").GetString(),
              o.GetProperty("signer").GetProperty("keyId").GetGuid()));
+        // The audit itself and the team's list say the same: the verdict that stands, the engine's beside it.
+        var audit = await client.GetFromJsonAsync<JsonElement>($"/api/audits/{id}");
+        Assert.Equal(("block", "pass", true), (audit.GetProperty("verdict").GetString(), audit.GetProperty("engineVerdict").GetString(),
+            audit.GetProperty("overridden").GetBoolean()));
+        var listed = (await client.GetFromJsonAsync<JsonElement>("/api/audits")).EnumerateArray().Single(a => a.GetProperty("id").GetGuid() == id);
+        Assert.Equal(("block", "pass"), (listed.GetProperty("verdict").GetString(), listed.GetProperty("engineVerdict").GetString()));
         var history = await client.GetFromJsonAsync<JsonElement>($"/api/audits/{id}/reviews");
         Assert.Equal(("verdict", "override"), (history[0].GetProperty("subject").GetString(), history[0].GetProperty("decision").GetString()));
         Assert.Equal(history[1].GetProperty("id").GetGuid(), history[0].GetProperty("supersededBy").GetProperty("id").GetGuid());
