@@ -95,7 +95,7 @@ public sealed partial class AuditJobs(ChunkStore chunks, AuditInputsLoader loade
         try
         {
             var inputs = await loader.LoadAsync(auditId, stop.Token);
-            var outcome = await engine.FinishAsync(inputs, await chunks.ResultsAsync(auditId, stop.Token), stop.Token);
+            var outcome = await engine.FinishAsync(inputs, new StoredChunkResults(chunks, auditId), stop.Token);
             if (await chunks.FinishAsync(auditId, outcome, ct)) LogFinished(auditId, outcome.Verdict);
         }
         catch (AuditInputException e)

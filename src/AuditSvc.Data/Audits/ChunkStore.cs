@@ -1,3 +1,5 @@
+using System.Data;
+using System.Runtime.CompilerServices;
 using Dapper;
 using Npgsql;
 
@@ -132,13 +134,26 @@ public sealed class ChunkStore(NpgsqlDataSource db)
             """, new { auditId, lease, force }, cancellationToken: ct));
     }
 
-    /// <summary>Every chunk result in chunk order; call only when all chunks are done.</summary>
-    public async Task<IReadOnlyList<byte[]>> ResultsAsync(Guid auditId, CancellationToken ct)
+    /// <summary>
+    /// The done chunks' results in chunk order, one at a time: each is streamed from the row (sequential access, never
+    /// buffered whole) into <paramref name="parse"/>, and the next row is read only when the caller asks for it, so a
+    /// merge holds one chunk however many the audit has. The stream is readable only inside <paramref name="parse"/>.
+    /// </summary>
+    public async IAsyncEnumerable<T> ReadResultsAsync<T>(Guid auditId, Func<Stream, T> parse, [EnumeratorCancellation] CancellationToken ct)
     {
         await using var conn = await db.OpenConnectionAsync(ct);
-        return (await conn.QueryAsync<byte[]>(new CommandDefinition(
-            "SELECT result FROM audit_chunks WHERE audit_id = @auditId AND state = 'done' ORDER BY chunk_index",
-            new { auditId }, cancellationToken: ct))).ToList();
+        await using var cmd = new NpgsqlCommand(
+            "SELECT result FROM audit_chunks WHERE audit_id = $1 AND state = 'done' ORDER BY chunk_index", conn);
+        cmd.Parameters.Add(new NpgsqlParameter { Value = auditId });
+        await using var reader = await cmd.ExecuteReaderAsync(CommandBehavior.SequentialAccess, ct);
+        while (await reader.ReadAsync(ct))
+        {
+            T item;
+            await using (var column = await reader.GetStreamAsync(0, ct))
+            await using (var buffered = new BufferedStream(column, 1 << 16))
+                item = parse(buffered);
+            yield return item;
+        }
     }
 
     /// <summary>merging → done with audit.json, verdict, findings and scores; false when already finished or cancelled.</summary>

@@ -118,7 +118,7 @@ public sealed class AuditJobsTests
             throw new AuditSvc.Core.AuditInputException(inputs.Items.Items[0].RelativePath, "not a decodable image");
         public Task<string> RenderReportAsync(AuditSvc.Api.Engine.AuditInputs inputs, string auditJson, CancellationToken ct) =>
             _inner.RenderReportAsync(inputs, auditJson, ct);
-        public Task<AuditSvc.Data.Audits.AuditOutcome> FinishAsync(AuditSvc.Api.Engine.AuditInputs inputs, IReadOnlyList<byte[]> chunks, CancellationToken ct) =>
+        public Task<AuditSvc.Data.Audits.AuditOutcome> FinishAsync(AuditSvc.Api.Engine.AuditInputs inputs, AuditSvc.Api.Engine.IChunkResults chunks, CancellationToken ct) =>
             _inner.FinishAsync(inputs, chunks, ct);
     }
 }
