@@ -57,6 +57,38 @@ public sealed class AuditJobsTests
     }
 
     [PgFact]
+    public async Task Audit_SmallAuditOfAnotherTeamSubmittedLater_FinishesFirstAndBothCountEveryItemOnce()
+    {
+        // One worker. Team A's audit has 20 chunks and is under way when team B submits one of 2 chunks: B is served
+        // in turn with A (each team's window), so B ends long before A instead of waiting behind A's every chunk.
+        await using var svc = await ServiceUnderTest.StartAsync(workers: 1, engine: new CountingEngine(chunkTime: TimeSpan.FromMilliseconds(250)));
+        using var a = await svc.ClientAsync("team-a");
+        using var b = await svc.ClientAsync("team-b");
+        var setB = await Uploads.ImageSetAsync(b, 2);
+        var modelB = await Uploads.ModelAsync(b);
+        var idA = await AuditEndpointsTests.SubmitAsync(a, await Uploads.ModelAsync(a), await Uploads.ImageSetAsync(a, 20), 2);
+        await ServiceUnderTest.PollAsync(async () => (await a.GetFromJsonAsync<AuditSnapshot>($"/api/audits/{idA}"))!,
+            s => s.Progress.ChunksDone >= 1, "team A's audit to be under way");
+        var idB = await AuditEndpointsTests.SubmitAsync(b, modelB, setB, 2);
+
+        var endB = await svc.WaitForEndAsync(b, idB);
+        var atB = (await a.GetFromJsonAsync<AuditSnapshot>($"/api/audits/{idA}"))!;
+        var endA = await svc.WaitForEndAsync(a, idA);
+
+        Assert.Equal(("done", 4), (endB.State, endB.Progress.ItemsDone));
+        Assert.Equal(("done", 40), (endA.State, endA.Progress.ItemsDone));
+        Assert.True(atB.Progress.ChunksDone < 20, $"team B's audit ended after {atB.Progress.ChunksDone} of team A's 20 chunks");
+        // Each result is what the audit gives alone: every item counted once, by this process.
+        Assert.Equal("""{"verdict":"pass","items":4,"countedOnce":4,"processes":[""" + Environment.ProcessId + "]}", await b.GetStringAsync($"/api/audits/{idB}/result"));
+        Assert.Equal("""{"verdict":"pass","items":40,"countedOnce":40,"processes":[""" + Environment.ProcessId + "]}", await a.GetStringAsync($"/api/audits/{idA}/result"));
+        await using var conn = await svc.Db.DataSource.OpenConnectionAsync();
+        await using var cmd = new Npgsql.NpgsqlCommand("SELECT (SELECT finished_at FROM audits WHERE id = $1) < (SELECT finished_at FROM audits WHERE id = $2)", conn);
+        cmd.Parameters.Add(new Npgsql.NpgsqlParameter { Value = idB });
+        cmd.Parameters.Add(new Npgsql.NpgsqlParameter { Value = idA });
+        Assert.Equal(true, await cmd.ExecuteScalarAsync());
+    }
+
+    [PgFact]
     public async Task TwoHostsInOneProcess_OnTheirOwnDatabases_EachFinishItsOwnAudit()
     {
         // Hangfire keeps storage, activator and logging process-wide by default; each host must use its own.
