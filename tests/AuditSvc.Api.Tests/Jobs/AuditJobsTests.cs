@@ -89,6 +89,28 @@ public sealed class AuditJobsTests
     }
 
     [PgFact]
+    public async Task Audit_HandedOverChunksLostFromTheQueue_ReconcilerRevivesItAndCountsEachItemOnce()
+    {
+        // The audit is running, two chunks are marked as handed to the queue, but the queue has lost every job (as when
+        // a process dies between the database and the queue): nothing is in flight that will ever run.
+        await using var svc = await ServiceUnderTest.StartAsync(workers: 0);
+        using var client = await svc.ClientAsync("team-a");
+        var id = await AuditEndpointsTests.SubmitAsync(client, await Uploads.ModelAsync(client), await Uploads.ImageSetAsync(client, 5), 2);
+        await using (var conn = await svc.Db.DataSource.OpenConnectionAsync())
+        await using (var drop = new Npgsql.NpgsqlCommand("DELETE FROM hangfire.jobqueue", conn))
+            await drop.ExecuteNonQueryAsync();
+        var chunks = new AuditSvc.Data.Audits.ChunkStore(svc.Db.DataSource);
+        await chunks.StartAsync(id, CancellationToken.None);
+        Assert.Equal(2, (await chunks.DispatchAsync(2, CancellationToken.None)).Count);
+
+        await svc.StartWorkerAsync(new CountingEngine());
+        var end = await svc.WaitForEndAsync(client, id);
+
+        Assert.Equal(("done", 10), (end.State, end.Progress.ItemsDone));
+        Assert.Equal("""{"verdict":"pass","items":10,"countedOnce":10,"processes":[""" + Environment.ProcessId + "]}", await client.GetStringAsync($"/api/audits/{id}/result"));
+    }
+
+    [PgFact]
     public async Task TwoHostsInOneProcess_OnTheirOwnDatabases_EachFinishItsOwnAudit()
     {
         // Hangfire keeps storage, activator and logging process-wide by default; each host must use its own.

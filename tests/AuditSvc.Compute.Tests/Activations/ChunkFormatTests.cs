@@ -75,8 +75,13 @@ public class ChunkFormatTests(ITestOutputHelper output)
     [Fact]
     public void Write_DemoModelChunk_PeaksTakeLessThanHalfOfFormat1()
     {
-        // A 256-item chunk of a 20,000-image audit (top-n 250): nearly every item is among each unit's peaks.
-        var chunk = DemoChunk(0, 256, topN: TopN.DefaultN(20_000));
+        // A 256-item chunk of a 3,000-image audit (top-n 60) and of a 20,000-image one (top-n 250, nearly every item is
+        // among each unit's peaks).
+        foreach (var n in new[] { TopN.DefaultN(3_000), TopN.DefaultN(20_000) }) MeasureChunk(DemoChunk(0, 256, topN: n));
+    }
+
+    private void MeasureChunk(ChunkResult chunk)
+    {
         using var v1 = new MemoryStream();
         WriteFormat1(v1, chunk);
         using var v2 = new MemoryStream();
