@@ -25,9 +25,13 @@ internal static class ChunkPeaks
             sorted.Sort(static (a, b) => a.Item.CompareTo(b.Item));
             w.Write7BitEncodedInt(sorted.Count);
             if (sorted.Count == 0) continue;
-            foreach (var p in sorted)
-                if (p.Item < c.Start || p.Item >= c.Start + c.Count)
-                    throw new InvalidDataException($"a peak of unit {u} names item {p.Item}, outside the chunk [{c.Start}, {c.Start + c.Count})");
+            for (int j = 0; j < sorted.Count; j++)
+            {
+                var item = sorted[j].Item;
+                if (item < c.Start || item >= c.Start + c.Count)
+                    throw new InvalidDataException($"a peak of unit {u} names item {item}, outside the chunk [{c.Start}, {c.Start + c.Count})");
+                if (j > 0 && sorted[j - 1].Item == item) throw new InvalidDataException($"unit {u} has two peaks on item {item}");
+            }
             // A bitmap costs Count/8 bytes; gaps cost about a byte per peak.
             if ((c.Count + 7) / 8 < sorted.Count)
             {
@@ -43,7 +47,6 @@ internal static class ChunkPeaks
                 foreach (var p in sorted)
                 {
                     int offset = p.Item - c.Start;
-                    if (offset == previous) throw new InvalidDataException($"unit {u} has two peaks on item {p.Item}");
                     w.Write7BitEncodedInt(offset - previous - 1);
                     previous = offset;
                 }
@@ -76,7 +79,12 @@ internal static class ChunkPeaks
                         if ((bits[i >> 3] & (1 << (i & 7))) != 0) offsets.Add(i);
                     break;
                 case Gaps:
-                    for (int j = 0, previous = -1; j < peaks; j++) offsets.Add(previous += r.Read7BitEncodedInt() + 1);
+                    for (long j = 0, previous = -1; j < peaks; j++)
+                    {
+                        previous += (uint)r.Read7BitEncodedInt() + 1L;
+                        if (previous >= count) throw new InvalidDataException($"unit {u}: a peak lies past the chunk's {count} items");
+                        offsets.Add((int)previous);
+                    }
                     break;
                 default:
                     throw new InvalidDataException($"unit {u}: unknown peak layout");

@@ -73,6 +73,20 @@ public class ChunkFormatTests(ITestOutputHelper output)
     }
 
     [Fact]
+    public void Write_TwoPeaksOnOneItem_RefusedInEitherLayout()
+    {
+        // Few peaks are written as gaps, many as a bitmap; a repeated item would be lost in a bitmap, so both refuse it.
+        foreach (var peaks in new[] { 2, 9 })
+        {
+            var top = Enumerable.Range(0, peaks).Select(i => new Peak(Math.Max(0, i - 1), 1f, 0, 0)).ToArray();
+            var chunk = new ChunkResult(0, 10, 1, 10, 1, new Half[10], [top], new bool[10], new int[10], new float[10], []);
+
+            var e = Assert.Throws<InvalidDataException>(() => chunk.Write(new MemoryStream()));
+            Assert.Contains("two peaks on item 0", e.Message, StringComparison.Ordinal);
+        }
+    }
+
+    [Fact]
     public void Write_DemoModelChunk_PeaksTakeLessThanHalfOfFormat1()
     {
         // A 256-item chunk of a 3,000-image audit (top-n 60) and of a 20,000-image one (top-n 250, nearly every item is
