@@ -67,7 +67,7 @@ public sealed class CountingEngine(string? markers = null, int waitForPeers = 0,
     public Task<string> RenderReportAsync(AuditInputs inputs, string auditJson, CancellationToken ct) =>
         Task.FromResult($"<!doctype html><title>audit</title><pre>{System.Net.WebUtility.HtmlEncode(auditJson)}</pre>");
 
-    public async Task<AuditOutcome> FinishAsync(AuditInputs inputs, IReadOnlyList<byte[]> chunks, CancellationToken ct)
+    public async Task<AuditOutcome> FinishAsync(AuditInputs inputs, IChunkResults chunks, CancellationToken ct)
     {
         FinishStarted.TrySetResult();
         if (FinishTime > TimeSpan.Zero)
@@ -82,7 +82,8 @@ public sealed class CountingEngine(string? markers = null, int waitForPeers = 0,
                 throw;
             }
         }
-        var parsed = chunks.Select(c => JsonSerializer.Deserialize<Chunk>(c)!).ToList();
+        var parsed = new List<Chunk>();
+        await foreach (var c in chunks.ReadAsync(s => JsonSerializer.Deserialize<Chunk>(s)!, ct)) parsed.Add(c);
         var seen = parsed.SelectMany(c => c.Items).ToList();
         var counts = Enumerable.Range(0, inputs.Items.Items.Count).Select(i => seen.Count(s => s == i)).ToArray();
         var verdict = counts.All(c => c == 1) ? "pass" : "block";

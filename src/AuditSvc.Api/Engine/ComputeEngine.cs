@@ -59,23 +59,25 @@ public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine
         return buffer.ToArray();
     }, ct);
 
-    public Task<AuditOutcome> FinishAsync(AuditInputs inputs, IReadOnlyList<byte[]> chunks, CancellationToken ct) => Task.Run(() =>
+    public Task<AuditOutcome> FinishAsync(AuditInputs inputs, IChunkResults chunks, CancellationToken ct) => Task.Run(async () =>
     {
-        double passSeconds = 0;
-        var parsed = new List<ChunkResult>(chunks.Count);
-        foreach (var bytes in chunks)
-        {
-            passSeconds += BitConverter.ToDouble(bytes, 0);
-            using var stream = new MemoryStream(bytes, sizeof(double), bytes.Length - sizeof(double), writable: false);
-            parsed.Add(ChunkResult.Read(stream));
-        }
         var policy = PolicyFile.Parse(inputs.PolicyJson, "policy");
         Directory.CreateDirectory(inputs.WorkDirectory);
         try
         {
             var options = PassOptionsFor(inputs) with { SpillDirectory = Path.Combine(inputs.WorkDirectory, "scores") };
             var clock = new PhaseClock();
-            var result = AuditPipeline.FinishChunks(Model(inputs.ModelPath), inputs.Items, parsed, policy, options, passSeconds, clock.Wrap(), ct);
+            double passSeconds = 0;
+            // One chunk at a time: read from its row, folded into the merge, dropped before the next is read.
+            var result = await AuditPipeline.FinishChunksAsync(Model(inputs.ModelPath), inputs.Items, async merger =>
+            {
+                await foreach (var chunk in chunks.ReadAsync(ReadChunk, ct))
+                {
+                    passSeconds += chunk.PassSeconds;
+                    merger.Add(chunk.Result);
+                }
+                return passSeconds;
+            }, policy, options, clock.Wrap(), ct);
             // Intake ran at upload and the report is drawn on first request: neither is part of this audit's clock.
             result = result with { Phases = clock.Times(intake: null, report: null, pass: passSeconds) };
             return Outcome(AuditJson.Serialize(result) + "\n", result);
@@ -85,6 +87,17 @@ public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine
             if (Directory.Exists(inputs.WorkDirectory)) Directory.Delete(inputs.WorkDirectory, recursive: true);
         }
     }, ct);
+
+    /// <summary>A stored chunk: the seconds its pass took, then the chunk result.</summary>
+    public sealed record StoredChunk(double PassSeconds, ChunkResult Result);
+
+    /// <summary>Reads what <see cref="RunChunkAsync"/> wrote.</summary>
+    public static StoredChunk ReadChunk(Stream stream)
+    {
+        Span<byte> seconds = stackalloc byte[sizeof(double)];
+        stream.ReadExactly(seconds);
+        return new StoredChunk(BitConverter.ToDouble(seconds), ChunkResult.Read(stream));
+    }
 
     public Task<string> RenderReportAsync(AuditInputs inputs, string auditJson, CancellationToken ct) => Task.Run(() =>
     {

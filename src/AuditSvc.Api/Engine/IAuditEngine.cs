@@ -11,6 +11,21 @@ public sealed record AuditInputs(Guid AuditId, string ModelPath, string RecipeJs
     string PolicyJson, int OnnxThreads, string WorkDirectory);
 
 /// <summary>
+/// An audit's chunk results as <see cref="IAuditEngine.RunChunkAsync"/> wrote them, in chunk order, handed over one at
+/// a time: each stream is readable only inside <c>parse</c>, and the next chunk is read only when the caller moves on.
+/// </summary>
+public interface IChunkResults
+{
+    IAsyncEnumerable<T> ReadAsync<T>(Func<Stream, T> parse, CancellationToken ct);
+}
+
+/// <summary>The chunk results of one audit as kept in Postgres.</summary>
+public sealed class StoredChunkResults(ChunkStore store, Guid auditId) : IChunkResults
+{
+    public IAsyncEnumerable<T> ReadAsync<T>(Func<Stream, T> parse, CancellationToken ct) => store.ReadResultsAsync(auditId, parse, ct);
+}
+
+/// <summary>
 /// The seam between the service and the engine: jobs call it with ids resolved to files and tables.
 /// The real implementation forwards to AuditSvc.Compute; tests use a trivial one to check the queue mechanics.
 /// </summary>
@@ -39,6 +54,9 @@ public interface IAuditEngine
     Task<byte[]?> RenderExemplarAsync(AuditInputs inputs, int item, AuditSvc.Core.Audits.BoxDto box, bool whole, CancellationToken ct) =>
         Task.FromResult<byte[]?>(null);
 
-    /// <summary>Merges the chunk results (in chunk order) and runs the analysis: audit.json, verdict, findings, scores.</summary>
-    Task<AuditOutcome> FinishAsync(AuditInputs inputs, IReadOnlyList<byte[]> chunks, CancellationToken ct);
+    /// <summary>
+    /// Merges the chunk results, read one at a time in chunk order from <paramref name="chunks"/>, and runs the
+    /// analysis: audit.json, verdict, findings, scores.
+    /// </summary>
+    Task<AuditOutcome> FinishAsync(AuditInputs inputs, IChunkResults chunks, CancellationToken ct);
 }

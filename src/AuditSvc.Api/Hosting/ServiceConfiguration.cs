@@ -15,6 +15,7 @@ public static class ServiceConfiguration
         ("AUDITSVC_ONNX_THREADS", nameof(ServiceOptions.OnnxThreads)),
         ("AUDITSVC_LEASE_SECONDS", nameof(ServiceOptions.LeaseSeconds)),
         ("AUDITSVC_RECONCILE_SECONDS", nameof(ServiceOptions.ReconcileSeconds)),
+        ("AUDITSVC_TEAM_CHUNKS", nameof(ServiceOptions.TeamChunks)),
         ("AUDITSVC_MAX_UPLOAD_BYTES", nameof(ServiceOptions.MaxUploadBytes)),
         ("AUDITSVC_OPERATOR_TEAMS", nameof(ServiceOptions.OperatorTeams)),
         ("AUDITSVC_MIGRATE", nameof(ServiceOptions.MigrateOnStart)),

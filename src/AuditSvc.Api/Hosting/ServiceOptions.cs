@@ -31,6 +31,12 @@ public sealed class ServiceOptions : IValidatableObject
     /// <summary>How often each worker process looks for work a dead worker left (AUDITSVC_RECONCILE_SECONDS).</summary>
     [Range(1, 3_600)] public int ReconcileSeconds { get; set; } = 30;
 
+    /// <summary>
+    /// Chunks each team may have queued or running at once (AUDITSVC_TEAM_CHUNKS), shared by all its audits; 0 means
+    /// as many as there are audit job workers across the live servers (at least 2), so one team alone uses them all.
+    /// </summary>
+    [Range(0, 100_000)] public int TeamChunks { get; set; }
+
     /// <summary>Largest upload accepted, in bytes (AUDITSVC_MAX_UPLOAD_BYTES).</summary>
     [Range(1, long.MaxValue)] public long MaxUploadBytes { get; set; } = 8L << 30;
 

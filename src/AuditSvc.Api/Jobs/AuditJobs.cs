@@ -13,27 +13,44 @@ namespace AuditSvc.Api.Jobs;
 /// repeat (Hangfire retry, redelivery after a worker died, or the reconciler) changes nothing twice.
 /// </summary>
 public sealed partial class AuditJobs(ChunkStore chunks, AuditInputsLoader loader, IAuditEngine engine,
-    IBackgroundJobClient queue, IOptions<ServiceOptions> options, ILogger<AuditJobs> log)
+    IBackgroundJobClient queue, DispatchWindow window, IOptions<ServiceOptions> options, ILogger<AuditJobs> log)
 {
     public const string Queue = "audits";
     public const int MaxAttempts = 5;
 
-    /// <summary>queued → running, then one job per open chunk.</summary>
+    /// <summary>queued → running, then its team's share of chunk jobs (<see cref="DispatchAsync"/>).</summary>
     [Queue(Queue)]
     [AutomaticRetry(Attempts = 3)]
     public async Task StartAsync(Guid auditId, CancellationToken ct)
     {
         var audit = await chunks.StartAsync(auditId, ct);
         if (audit is null || audit.State != "running") return;
-        foreach (var index in await chunks.OpenChunksAsync(auditId, ct))
-            EnqueueChunk(queue, auditId, index);
         LogStarted(auditId, audit.ChunksTotal);
+        await DispatchAsync(ct);
     }
 
-    /// <summary>Runs one chunk under a lease it keeps sliding; the completion that closes the last chunk enqueues the merge.</summary>
+    /// <summary>
+    /// Runs one chunk under a lease it keeps sliding; the completion that closes the last chunk enqueues the merge.
+    /// However the job ends (done, refused, lease lost, audit cancelled or failed) a window place may have come free:
+    /// it then hands the next chunks to the queue.
+    /// </summary>
     [Queue(Queue)]
     [AutomaticRetry(Attempts = 3)]
     public async Task RunChunkAsync(Guid auditId, int chunkIndex, CancellationToken ct)
+    {
+        await RunClaimedChunkAsync(auditId, chunkIndex, ct);
+        await DispatchAsync(ct);
+    }
+
+    /// <summary>Hands waiting chunks to the queue, fairly between teams, up to each team's window.</summary>
+    public async Task<int> DispatchAsync(CancellationToken ct)
+    {
+        var next = await chunks.DispatchAsync(window.PerTeam(), ct);
+        foreach (var (auditId, index) in next) EnqueueChunk(queue, auditId, index);
+        return next.Count;
+    }
+
+    private async Task RunClaimedChunkAsync(Guid auditId, int chunkIndex, CancellationToken ct)
     {
         var lease = options.Value.Lease;
         var claim = await chunks.ClaimAsync(auditId, chunkIndex, lease, ct);
@@ -95,7 +112,7 @@ public sealed partial class AuditJobs(ChunkStore chunks, AuditInputsLoader loade
         try
         {
             var inputs = await loader.LoadAsync(auditId, stop.Token);
-            var outcome = await engine.FinishAsync(inputs, await chunks.ResultsAsync(auditId, stop.Token), stop.Token);
+            var outcome = await engine.FinishAsync(inputs, new StoredChunkResults(chunks, auditId), stop.Token);
             if (await chunks.FinishAsync(auditId, outcome, ct)) LogFinished(auditId, outcome.Verdict);
         }
         catch (AuditInputException e)
@@ -134,14 +151,18 @@ public sealed partial class AuditJobs(ChunkStore chunks, AuditInputsLoader loade
         catch (Npgsql.NpgsqlException) { /* the database is away: the merge itself will find out */ }
     }
 
-    /// <summary>Re-enqueues what a dead worker or a lost enqueue left: expired chunk leases, untaken merges, unstarted audits.</summary>
+    /// <summary>
+    /// Re-enqueues what a dead worker or a lost enqueue left (expired chunk leases, dispatched chunks never taken,
+    /// untaken merges, unstarted audits), then fills the teams' windows, which also revives an audit whose chunks
+    /// wait with nothing in flight.
+    /// </summary>
     public async Task<int> ReconcileAsync(CancellationToken ct)
     {
         var stale = await chunks.StaleAsync(options.Value.Lease, ct);
         foreach (var (auditId, index) in stale.Chunks) EnqueueChunk(queue, auditId, index);
         foreach (var auditId in stale.Merges) queue.Enqueue<AuditJobs>(j => j.MergeAsync(auditId, false, CancellationToken.None));
         foreach (var auditId in stale.Starts) EnqueueStart(queue, auditId);
-        return stale.Chunks.Count + stale.Merges.Count + stale.Starts.Count;
+        return stale.Chunks.Count + stale.Merges.Count + stale.Starts.Count + await DispatchAsync(ct);
     }
 
     public static string EnqueueStart(IBackgroundJobClient queue, Guid auditId) =>

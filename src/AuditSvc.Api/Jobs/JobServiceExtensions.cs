@@ -27,6 +27,7 @@ public static partial class JobServiceExtensions
         services.AddSingleton<AuditInputsLoader>();
         services.AddSingleton<AuditSvc.Api.Audits.ReportCache>();
         services.AddTransient<AuditJobs>();
+        services.AddSingleton<DispatchWindow>();
         // The storage is this host's own singleton rather than Hangfire's process-wide JobStorage.Current, so
         // two hosts in one process (the tests; an API with a separate worker host) never cross databases.
         var storageOptions = new PostgreSqlStorageOptions

@@ -80,6 +80,31 @@ public static class AuditPipeline
         }
     }
 
+    /// <summary>
+    /// As <see cref="FinishChunks"/>, with the chunks handed over one at a time: <paramref name="feed"/> adds them to the
+    /// merger in item order (reading each from wherever it is kept) and returns the pass's seconds summed over them.
+    /// </summary>
+    public static async Task<AuditResult> FinishChunksAsync(LoadedModel model, ItemTable table, Func<ChunkMerger, Task<double>> feed,
+        AuditPolicy policy, PassOptions options, Action<AuditStage, string>? stage = null, CancellationToken ct = default)
+    {
+        using var pass = new ActivationPass(model.Plan, model.RewrittenModel, options);
+        ActivationResult act;
+        double passSeconds;
+        using (var merger = new ChunkMerger(pass.Layers, table.Items.Count, pass.Options))
+        {
+            passSeconds = await feed(merger);
+            act = merger.Finish();
+        }
+        try
+        {
+            return Finish(pass, table, model, act, policy, passSeconds, stage, ct);
+        }
+        finally
+        {
+            (act.Scores as IDisposable)?.Dispose();
+        }
+    }
+
     /// <summary>Analysis, interventions and verdict over a finished activation pass.</summary>
     public static AuditResult Finish(ActivationPass pass, ItemTable table, LoadedModel model, ActivationResult act, AuditPolicy policy, double passSeconds,
         Action<AuditStage, string>? stage = null, CancellationToken ct = default)

@@ -22,7 +22,7 @@ public sealed record ChunkResult(
     IReadOnlyList<PassProblem> Problems)
 {
     private const int Magic = 0x4B485541; // "AUHK"
-    private const int Version = 1;
+    private const int Version = 2;
 
     /// <summary>Cuts the chunk's part out of a pass run over [start, start + count).</summary>
     public static ChunkResult From(ActivationResult act, int start, int count)
@@ -37,48 +37,31 @@ public sealed record ChunkResult(
             act.Probabilities.AsSpan(start * k, count * k).ToArray(), act.Problems.ToList());
     }
 
-    /// <summary>Merges the chunks of one audit into the activation result the analysis reads.</summary>
+    /// <summary>Merges the chunks of one audit into the activation result the analysis reads (see <see cref="ChunkMerger"/>).</summary>
     public static ActivationResult Merge(IReadOnlyList<LayerSlice> layers, int items, IReadOnlyList<ChunkResult> chunks, PassOptions options)
     {
         if (chunks.Count == 0) throw new ArgumentException("no chunks", nameof(chunks));
-        int units = chunks[0].Units, n = chunks[0].TopN, k = chunks[0].ClassCount;
-        var store = new ScoreStore(items, units, memoryLimitBytes: options.ScoreMemoryLimitBytes, spillDir: options.SpillDirectory);
-        var top = new TopN(units, n);
-        var scored = new bool[items];
-        var predicted = Enumerable.Repeat(-1, items).ToArray();
-        var probs = new float[(long)items * k];
-        var problems = new List<PassProblem>();
-        var row = new float[units];
-        foreach (var c in chunks.OrderBy(c => c.Start))
+        var merger = new ChunkMerger(layers, items, options);
+        try
         {
-            if (c.Units != units || c.TopN != n || c.ClassCount != k) throw new InvalidDataException($"chunk at {c.Start} does not match the others");
-            for (int i = 0; i < c.Count; i++)
-            {
-                if (!c.Scored[i]) continue;
-                for (int u = 0; u < units; u++) row[u] = (float)c.Scores[(long)i * units + u];
-                store.WriteRow(c.Start + i, row);
-            }
-            store.SpillIfNeeded(c.Start + c.Count);
-            for (int u = 0; u < units; u++) foreach (var p in c.Top[u]) top.Offer(u, p);
-            c.Scored.CopyTo(scored, c.Start);
-            c.Predicted.CopyTo(predicted, c.Start);
-            c.Probabilities.CopyTo(probs, (long)c.Start * k);
-            problems.AddRange(c.Problems);
+            foreach (var c in chunks.OrderBy(c => c.Start)) merger.Add(c);
+            return merger.Finish();
         }
-        return new ActivationResult(layers, store, top, scored, predicted, probs, k, problems.OrderBy(p => p.Item).ToList());
+        catch
+        {
+            merger.Dispose();
+            throw;
+        }
     }
 
+    /// <summary>Writes the chunk in format 2: scores as float16, peaks in the compact form of <see cref="ChunkPeaks"/>.</summary>
     public void Write(Stream stream)
     {
         using var w = new BinaryWriter(stream, System.Text.Encoding.UTF8, leaveOpen: true);
         w.Write(Magic); w.Write(Version);
         w.Write(Start); w.Write(Count); w.Write(Units); w.Write(TopN); w.Write(ClassCount);
         foreach (var h in Scores) w.Write(h);
-        foreach (var peaks in Top)
-        {
-            w.Write(peaks.Length);
-            foreach (var p in peaks) { w.Write(p.Item); w.Write(p.Score); w.Write(p.Y); w.Write(p.X); }
-        }
+        ChunkPeaks.Write(w, this);
         foreach (var s in Scored) w.Write(s);
         foreach (var p in Predicted) w.Write(p);
         foreach (var p in Probabilities) w.Write(p);
@@ -86,19 +69,20 @@ public sealed record ChunkResult(
         foreach (var p in Problems) { w.Write(p.Item); w.Write(p.File); w.Write(p.Reason); }
     }
 
+    /// <summary>Reads a chunk written by <see cref="Write"/>, or by format 1 (peaks as four plain fields each); refuses anything else.</summary>
     public static ChunkResult Read(Stream stream)
     {
         using var r = new BinaryReader(stream, System.Text.Encoding.UTF8, leaveOpen: true);
-        if (r.ReadInt32() != Magic || r.ReadInt32() != Version) throw new InvalidDataException("not a chunk result of this version");
+        if (r.ReadInt32() != Magic) throw new InvalidDataException("not a chunk result");
+        var version = r.ReadInt32();
+        if (version is not (1 or Version))
+            throw new InvalidDataException($"chunk result format {version} is not one this build reads (1 or {Version}); run the audit again");
         int start = r.ReadInt32(), count = r.ReadInt32(), units = r.ReadInt32(), n = r.ReadInt32(), k = r.ReadInt32();
+        if (start < 0 || count < 0 || units < 0 || n < 1 || k < 0 || (long)count * units > Array.MaxLength || (long)count * k > Array.MaxLength)
+            throw new InvalidDataException($"chunk result header out of range (start {start}, items {count}, units {units}, top-n {n}, classes {k})");
         var scores = new Half[(long)count * units];
         for (long i = 0; i < scores.LongLength; i++) scores[i] = r.ReadHalf();
-        var top = new Peak[units][];
-        for (int u = 0; u < units; u++)
-        {
-            top[u] = new Peak[r.ReadInt32()];
-            for (int j = 0; j < top[u].Length; j++) top[u][j] = new Peak(r.ReadInt32(), r.ReadSingle(), r.ReadInt16(), r.ReadInt16());
-        }
+        var top = version == 1 ? ReadPlainPeaks(r, units, count) : ChunkPeaks.Read(r, start, count, units, n, scores);
         var scored = new bool[count];
         for (int i = 0; i < count; i++) scored[i] = r.ReadBoolean();
         var predicted = new int[count];
@@ -108,5 +92,19 @@ public sealed record ChunkResult(
         var problems = new List<PassProblem>();
         for (int i = r.ReadInt32(); i > 0; i--) problems.Add(new PassProblem(r.ReadInt32(), r.ReadString(), r.ReadString()));
         return new ChunkResult(start, count, units, n, k, scores, top, scored, predicted, probs, problems);
+    }
+
+    // Format 1: per unit a count, then item (int32), score (float32), y and x (int16) per peak.
+    private static Peak[][] ReadPlainPeaks(BinaryReader r, int units, int count)
+    {
+        var top = new Peak[units][];
+        for (int u = 0; u < units; u++)
+        {
+            var peaks = r.ReadInt32();
+            if (peaks < 0 || peaks > count) throw new InvalidDataException($"unit {u} claims {peaks} peaks in a chunk of {count} items");
+            top[u] = new Peak[peaks];
+            for (int j = 0; j < top[u].Length; j++) top[u][j] = new Peak(r.ReadInt32(), r.ReadSingle(), r.ReadInt16(), r.ReadInt16());
+        }
+        return top;
     }
 }

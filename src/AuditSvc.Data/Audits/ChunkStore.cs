@@ -1,3 +1,5 @@
+using System.Data;
+using System.Runtime.CompilerServices;
 using Dapper;
 using Npgsql;
 
@@ -26,13 +28,59 @@ public sealed class ChunkStore(NpgsqlDataSource db)
             $"SELECT {AuditStore.Columns} FROM audits WHERE id = @auditId", new { auditId }, cancellationToken: ct));
     }
 
-    /// <summary>Indices of chunks not yet done, for fan-out.</summary>
+    /// <summary>Indices of chunks not yet done.</summary>
     public async Task<IReadOnlyList<int>> OpenChunksAsync(Guid auditId, CancellationToken ct)
     {
         await using var conn = await db.OpenConnectionAsync(ct);
         return (await conn.QueryAsync<int>(new CommandDefinition(
             "SELECT chunk_index FROM audit_chunks WHERE audit_id = @auditId AND state <> 'done' ORDER BY chunk_index",
             new { auditId }, cancellationToken: ct))).ToList();
+    }
+
+    /// <summary>Advisory lock key of the dispatch: "AuditDsp" in ASCII, apart from the migrations' key.</summary>
+    internal const long DispatchLockKey = 0x4175646974447370;
+
+    /// <summary>
+    /// Marks the next chunks to hand to the job queue, fairly between teams (<see cref="FairShare"/>), and returns them
+    /// in the order to enqueue. Under one lock for every caller, so two workers dispatching at once never overfill a
+    /// window. A chunk marked here whose job never reaches the queue (the process died in between) is handed over
+    /// again by <see cref="StaleAsync"/> after a lease.
+    /// </summary>
+    public async Task<IReadOnlyList<(Guid AuditId, int ChunkIndex)>> DispatchAsync(int window, CancellationToken ct)
+    {
+        await using var conn = await db.OpenConnectionAsync(ct);
+        await using var tx = await conn.BeginTransactionAsync(ct);
+        await conn.ExecuteAsync(new CommandDefinition("SELECT pg_advisory_xact_lock(@key)", new { key = DispatchLockKey }, tx, cancellationToken: ct));
+        var open = (await conn.QueryAsync<OpenAudit>(new CommandDefinition(
+            """
+            SELECT a.team_id AS TeamId, a.id AS AuditId, a.created_at AS CreatedAt,
+                   count(*) FILTER (WHERE c.state = 'running' OR c.dispatched_at IS NOT NULL)::int AS InFlight,
+                   count(*) FILTER (WHERE c.state = 'pending' AND c.dispatched_at IS NULL)::int AS Waiting
+            FROM audits a JOIN audit_chunks c ON c.audit_id = a.id
+            WHERE a.state = 'running' AND c.state <> 'done'
+            GROUP BY a.team_id, a.id, a.created_at
+            """, transaction: tx, cancellationToken: ct))).ToList();
+        var plan = FairShare.Plan(open, window);
+        if (plan.Count == 0) return [];
+        var picked = new Dictionary<Guid, Queue<int>>();
+        foreach (var (auditId, count) in plan.CountBy(a => a))
+        {
+            var indices = await conn.QueryAsync<int>(new CommandDefinition(
+                """
+                UPDATE audit_chunks SET dispatched_at = now(), updated_at = now()
+                WHERE audit_id = @auditId AND chunk_index IN (
+                    SELECT chunk_index FROM audit_chunks
+                    WHERE audit_id = @auditId AND state = 'pending' AND dispatched_at IS NULL
+                    ORDER BY chunk_index LIMIT @count)
+                RETURNING chunk_index
+                """, new { auditId, count }, tx, cancellationToken: ct));
+            picked[auditId] = new Queue<int>(indices.Order());
+        }
+        await tx.CommitAsync(ct);
+        var order = new List<(Guid, int)>(plan.Count);
+        foreach (var auditId in plan)
+            if (picked[auditId].TryDequeue(out var index)) order.Add((auditId, index));
+        return order;
     }
 
     /// <summary>
@@ -132,13 +180,26 @@ public sealed class ChunkStore(NpgsqlDataSource db)
             """, new { auditId, lease, force }, cancellationToken: ct));
     }
 
-    /// <summary>Every chunk result in chunk order; call only when all chunks are done.</summary>
-    public async Task<IReadOnlyList<byte[]>> ResultsAsync(Guid auditId, CancellationToken ct)
+    /// <summary>
+    /// The done chunks' results in chunk order, one at a time: each is streamed from the row (sequential access, never
+    /// buffered whole) into <paramref name="parse"/>, and the next row is read only when the caller asks for it, so a
+    /// merge holds one chunk however many the audit has. The stream is readable only inside <paramref name="parse"/>.
+    /// </summary>
+    public async IAsyncEnumerable<T> ReadResultsAsync<T>(Guid auditId, Func<Stream, T> parse, [EnumeratorCancellation] CancellationToken ct)
     {
         await using var conn = await db.OpenConnectionAsync(ct);
-        return (await conn.QueryAsync<byte[]>(new CommandDefinition(
-            "SELECT result FROM audit_chunks WHERE audit_id = @auditId AND state = 'done' ORDER BY chunk_index",
-            new { auditId }, cancellationToken: ct))).ToList();
+        await using var cmd = new NpgsqlCommand(
+            "SELECT result FROM audit_chunks WHERE audit_id = $1 AND state = 'done' ORDER BY chunk_index", conn);
+        cmd.Parameters.Add(new NpgsqlParameter { Value = auditId });
+        await using var reader = await cmd.ExecuteReaderAsync(CommandBehavior.SequentialAccess, ct);
+        while (await reader.ReadAsync(ct))
+        {
+            T item;
+            await using (var column = await reader.GetStreamAsync(0, ct))
+            await using (var buffered = new BufferedStream(column, 1 << 16))
+                item = parse(buffered);
+            yield return item;
+        }
     }
 
     /// <summary>merging → done with audit.json, verdict, findings and scores; false when already finished or cancelled.</summary>
@@ -182,21 +243,33 @@ public sealed class ChunkStore(NpgsqlDataSource db)
             """, new { auditId, error }, cancellationToken: ct));
     }
 
-    /// <summary>Work a dead worker left behind: chunks whose lease ran out, merges never taken, audits never started.</summary>
-    public async Task<StaleWork> StaleAsync(TimeSpan startGrace, CancellationToken ct)
+    /// <summary>
+    /// Work a dead worker or a lost hand-over left behind: chunks whose lease ran out; chunks dispatched more than
+    /// <paramref name="grace"/> ago that no worker has taken (their job never reached the queue, or failed for good:
+    /// they are marked dispatched again now, so each is handed over once per grace); merges never taken; audits never
+    /// started. Chunks not yet dispatched are not here: waiting for their team's window is normal.
+    /// </summary>
+    public async Task<StaleWork> StaleAsync(TimeSpan grace, CancellationToken ct)
     {
         await using var conn = await db.OpenConnectionAsync(ct);
-        var chunks = await conn.QueryAsync<(Guid, int)>(new CommandDefinition(
+        var chunks = (await conn.QueryAsync<(Guid, int)>(new CommandDefinition(
             """
             SELECT c.audit_id, c.chunk_index FROM audit_chunks c JOIN audits a ON a.id = c.audit_id
             WHERE a.state = 'running' AND c.state = 'running' AND c.lease_until < now()
-            """, cancellationToken: ct));
+            """, cancellationToken: ct))).ToList();
+        chunks.AddRange(await conn.QueryAsync<(Guid, int)>(new CommandDefinition(
+            """
+            UPDATE audit_chunks c SET dispatched_at = now()
+            FROM audits a
+            WHERE a.id = c.audit_id AND a.state = 'running' AND c.state = 'pending' AND c.dispatched_at < now() - @grace
+            RETURNING c.audit_id, c.chunk_index
+            """, new { grace }, cancellationToken: ct)));
         var merges = await conn.QueryAsync<Guid>(new CommandDefinition(
             "SELECT id FROM audits WHERE state = 'merging' AND merge_lease_until < now()", cancellationToken: ct));
         var starts = await conn.QueryAsync<Guid>(new CommandDefinition(
-            "SELECT id FROM audits WHERE state = 'queued' AND created_at < now() - @startGrace",
-            new { startGrace }, cancellationToken: ct));
-        return new StaleWork(chunks.ToList(), merges.ToList(), starts.ToList());
+            "SELECT id FROM audits WHERE state = 'queued' AND created_at < now() - @grace",
+            new { grace }, cancellationToken: ct));
+        return new StaleWork(chunks, merges.ToList(), starts.ToList());
     }
 }
 

@@ -48,6 +48,81 @@ public sealed class ComputeEngineTests
         Assert.Contains("<html", await report.Content.ReadAsStringAsync(), StringComparison.OrdinalIgnoreCase);
     }
 
+    [Fact]
+    public async Task FinishAsync_ChunksHandedOverOneAtATime_HoldsOneChunkAndEqualsAllAtOnceAndInProcess()
+    {
+        var root = Path.Combine(Path.GetTempPath(), "auditsvc-engine-" + Guid.NewGuid().ToString("N"));
+        try
+        {
+            var manifest = DemoSetGenerator.Write(Path.Combine(root, "set"), new DemoSetOptions(300, Agreement, Seed));
+            var model = Path.Combine(RepoRoot(), "seed-demo", "models", "fruit-cue.onnx");
+            var engine = new AuditSvc.Api.Engine.ComputeEngine(new AuditSvc.Api.Artifacts.ArtifactStore(
+                Microsoft.Extensions.Options.Options.Create(new AuditSvc.Api.Hosting.ServiceOptions { DataRoot = root })));
+            var items = await engine.IntakeImageSetAsync(Path.GetDirectoryName(manifest)!, ["sound", "spotted", "mouldy"], default);
+            var inputs = new AuditSvc.Api.Engine.AuditInputs(Guid.NewGuid(), model, "{}", Path.GetDirectoryName(manifest)!, items, "{}", 1,
+                Path.Combine(root, "work"));
+            var stored = new List<byte[]>();
+            for (int start = 0; start < 300; start += 50) stored.Add(await engine.RunChunkAsync(inputs, start, 50, default));
+            var local = AuditPipeline.Run(new AuditRequest(model, manifest, new ModelLoadOptions(), new AuditPolicy(), new PassOptions(),
+                Path.Combine(root, "local-work"))).Result;
+            var parsed = stored.Select(b => AuditSvc.Api.Engine.ComputeEngine.ReadChunk(new MemoryStream(b))).ToList();
+            var allAtOnce = AuditPipeline.FinishChunks(AuditSvc.Compute.Models.ModelIntake.Load(model), items, parsed.Select(c => c.Result).ToList(),
+                new AuditPolicy(), new PassOptions { InferenceThreads = 1, DecodeThreads = 1 }, parsed.Sum(c => c.PassSeconds));
+            parsed = null;
+            var source = new TrackingChunks(stored);
+
+            var outcome = await engine.FinishAsync(inputs, source, default);
+
+            Assert.Equal(6, source.Read);
+            Assert.True(source.MostAliveBeforeARead <= 1, $"{source.MostAliveBeforeARead} earlier chunks were still held when the next was read");
+            var streamed = AuditJson.Deserialize(outcome.ResultJson);
+            Assert.Equal(Timeless(allAtOnce), Timeless(streamed));
+            Assert.NotEmpty(local.Findings);
+            Assert.Equal(local.Verdict, streamed.Verdict);
+            Assert.Equal(local.Findings.Select(f => (f.Layer, f.Unit, f.Attribute, f.Value, f.QValue)), streamed.Findings.Select(f => (f.Layer, f.Unit, f.Attribute, f.Value, f.QValue)));
+            Assert.Equal(local.Findings.SelectMany(f => f.Exemplars.Select(e => (e.Item, e.Score, e.Box))), streamed.Findings.SelectMany(f => f.Exemplars.Select(e => (e.Item, e.Score, e.Box))));
+            Assert.Equal(local.Attributes.Select(a => (a.Name, a.Leakage, a.Verdict)), streamed.Attributes.Select(a => (a.Name, a.Leakage, a.Verdict)));
+        }
+        finally
+        {
+            Directory.Delete(root, recursive: true);
+        }
+    }
+
+    // The whole document but the clock: when it was made and how long each phase took.
+    private static string Timeless(AuditResult r) =>
+        AuditJson.Serialize(r with { CreatedAt = default, Phases = null, Pass = r.Pass with { InterventionSeconds = 0 } });
+
+    /// <summary>
+    /// Chunk results kept in memory and handed over the way the database does, one row at a time. Before reading each
+    /// chunk it collects garbage and counts how many chunks it handed over earlier are still reachable.
+    /// </summary>
+    private sealed class TrackingChunks(IReadOnlyList<byte[]> chunks) : AuditSvc.Api.Engine.IChunkResults
+    {
+        private readonly List<WeakReference> _handedOver = [];
+
+        public int Read { get; private set; }
+
+        public int MostAliveBeforeARead { get; private set; }
+
+        public async IAsyncEnumerable<T> ReadAsync<T>(Func<Stream, T> parse, [System.Runtime.CompilerServices.EnumeratorCancellation] CancellationToken ct)
+        {
+            foreach (var bytes in chunks)
+            {
+                await Task.Yield();
+                GC.Collect();
+                GC.WaitForPendingFinalizers();
+                GC.Collect();
+                MostAliveBeforeARead = Math.Max(MostAliveBeforeARead, _handedOver.Count(w => w.IsAlive));
+                using var stream = new MemoryStream(bytes, writable: false);
+                var item = parse(stream);
+                _handedOver.Add(new WeakReference(item is AuditSvc.Api.Engine.ComputeEngine.StoredChunk c ? c.Result : item));
+                Read++;
+                yield return item;
+            }
+        }
+    }
+
     private static async Task<Guid> UploadModelAsync(HttpClient client, string model)
     {
         using var form = new MultipartFormDataContent();

@@ -57,6 +57,60 @@ public sealed class AuditJobsTests
     }
 
     [PgFact]
+    public async Task Audit_SmallAuditOfAnotherTeamSubmittedLater_FinishesFirstAndBothCountEveryItemOnce()
+    {
+        // One worker. Team A's audit has 20 chunks and is under way when team B submits one of 2 chunks: B is served
+        // in turn with A (each team's window), so B ends long before A instead of waiting behind A's every chunk.
+        await using var svc = await ServiceUnderTest.StartAsync(workers: 1, engine: new CountingEngine(chunkTime: TimeSpan.FromMilliseconds(250)));
+        using var a = await svc.ClientAsync("team-a");
+        using var b = await svc.ClientAsync("team-b");
+        var setB = await Uploads.ImageSetAsync(b, 2);
+        var modelB = await Uploads.ModelAsync(b);
+        var idA = await AuditEndpointsTests.SubmitAsync(a, await Uploads.ModelAsync(a), await Uploads.ImageSetAsync(a, 20), 2);
+        await ServiceUnderTest.PollAsync(async () => (await a.GetFromJsonAsync<AuditSnapshot>($"/api/audits/{idA}"))!,
+            s => s.Progress.ChunksDone >= 1, "team A's audit to be under way");
+        var idB = await AuditEndpointsTests.SubmitAsync(b, modelB, setB, 2);
+
+        var endB = await svc.WaitForEndAsync(b, idB);
+        var atB = (await a.GetFromJsonAsync<AuditSnapshot>($"/api/audits/{idA}"))!;
+        var endA = await svc.WaitForEndAsync(a, idA);
+
+        Assert.Equal(("done", 4), (endB.State, endB.Progress.ItemsDone));
+        Assert.Equal(("done", 40), (endA.State, endA.Progress.ItemsDone));
+        Assert.True(atB.Progress.ChunksDone < 20, $"team B's audit ended after {atB.Progress.ChunksDone} of team A's 20 chunks");
+        // Each result is what the audit gives alone: every item counted once, by this process.
+        Assert.Equal("""{"verdict":"pass","items":4,"countedOnce":4,"processes":[""" + Environment.ProcessId + "]}", await b.GetStringAsync($"/api/audits/{idB}/result"));
+        Assert.Equal("""{"verdict":"pass","items":40,"countedOnce":40,"processes":[""" + Environment.ProcessId + "]}", await a.GetStringAsync($"/api/audits/{idA}/result"));
+        await using var conn = await svc.Db.DataSource.OpenConnectionAsync();
+        await using var cmd = new Npgsql.NpgsqlCommand("SELECT (SELECT finished_at FROM audits WHERE id = $1) < (SELECT finished_at FROM audits WHERE id = $2)", conn);
+        cmd.Parameters.Add(new Npgsql.NpgsqlParameter { Value = idB });
+        cmd.Parameters.Add(new Npgsql.NpgsqlParameter { Value = idA });
+        Assert.Equal(true, await cmd.ExecuteScalarAsync());
+    }
+
+    [PgFact]
+    public async Task Audit_HandedOverChunksLostFromTheQueue_ReconcilerRevivesItAndCountsEachItemOnce()
+    {
+        // The audit is running, two chunks are marked as handed to the queue, but the queue has lost every job (as when
+        // a process dies between the database and the queue): nothing is in flight that will ever run.
+        await using var svc = await ServiceUnderTest.StartAsync(workers: 0);
+        using var client = await svc.ClientAsync("team-a");
+        var id = await AuditEndpointsTests.SubmitAsync(client, await Uploads.ModelAsync(client), await Uploads.ImageSetAsync(client, 5), 2);
+        await using (var conn = await svc.Db.DataSource.OpenConnectionAsync())
+        await using (var drop = new Npgsql.NpgsqlCommand("DELETE FROM hangfire.jobqueue", conn))
+            await drop.ExecuteNonQueryAsync();
+        var chunks = new AuditSvc.Data.Audits.ChunkStore(svc.Db.DataSource);
+        await chunks.StartAsync(id, CancellationToken.None);
+        Assert.Equal(2, (await chunks.DispatchAsync(2, CancellationToken.None)).Count);
+
+        await svc.StartWorkerAsync(new CountingEngine());
+        var end = await svc.WaitForEndAsync(client, id);
+
+        Assert.Equal(("done", 10), (end.State, end.Progress.ItemsDone));
+        Assert.Equal("""{"verdict":"pass","items":10,"countedOnce":10,"processes":[""" + Environment.ProcessId + "]}", await client.GetStringAsync($"/api/audits/{id}/result"));
+    }
+
+    [PgFact]
     public async Task TwoHostsInOneProcess_OnTheirOwnDatabases_EachFinishItsOwnAudit()
     {
         // Hangfire keeps storage, activator and logging process-wide by default; each host must use its own.
@@ -118,7 +172,7 @@ public sealed class AuditJobsTests
             throw new AuditSvc.Core.AuditInputException(inputs.Items.Items[0].RelativePath, "not a decodable image");
         public Task<string> RenderReportAsync(AuditSvc.Api.Engine.AuditInputs inputs, string auditJson, CancellationToken ct) =>
             _inner.RenderReportAsync(inputs, auditJson, ct);
-        public Task<AuditSvc.Data.Audits.AuditOutcome> FinishAsync(AuditSvc.Api.Engine.AuditInputs inputs, IReadOnlyList<byte[]> chunks, CancellationToken ct) =>
+        public Task<AuditSvc.Data.Audits.AuditOutcome> FinishAsync(AuditSvc.Api.Engine.AuditInputs inputs, AuditSvc.Api.Engine.IChunkResults chunks, CancellationToken ct) =>
             _inner.FinishAsync(inputs, chunks, ct);
     }
 }

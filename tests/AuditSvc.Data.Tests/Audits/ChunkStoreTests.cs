@@ -67,7 +67,10 @@ public sealed class ChunkStoreTests
         Assert.Single(results, r => r.LastChunk);
         var row = (await new AuditStore(db.DataSource).GetAsync(audit.TeamId, audit.Id, None))!;
         Assert.Equal(("merging", 40, 20), (row.State, row.ItemsDone, row.ChunksDone));
-        Assert.Equal(Enumerable.Range(0, 20).Select(i => new[] { (byte)i }), await chunks.ResultsAsync(audit.Id, None));
+        var stored = new List<byte[]>();
+        await foreach (var bytes in chunks.ReadResultsAsync(audit.Id, s => { using var ms = new MemoryStream(); s.CopyTo(ms); return ms.ToArray(); }, None))
+            stored.Add(bytes);
+        Assert.Equal(Enumerable.Range(0, 20).Select(i => new[] { (byte)i }), stored);
     }
 
     [PgFact]
