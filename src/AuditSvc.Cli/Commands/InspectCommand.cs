@@ -1,6 +1,7 @@
 using System.CommandLine;
 using System.Globalization;
 using System.Text.Json;
+using AuditSvc.Compute.Bench;
 using AuditSvc.Compute.Models;
 using AuditSvc.Core;
 using AuditSvc.Core.Audits;
@@ -23,15 +24,16 @@ internal static class InspectCommand
         var layersOpt = new Option<string?>("--layers") { Description = "Comma-separated tensor names to read instead of the defaults" };
         var sizeOpt = new Option<string?>("--size") { Description = "Input size, N or WxH (needed when the model's input size is symbolic)" };
         var jsonOpt = new Option<bool>("--json") { Description = "Print JSON instead of text" };
+        var memoryOpt = new Option<bool>("--memory") { Description = "Measure instead the resident memory of the intake and of building the pass on this model (peak and after each step)" };
         var cmd = new Command("inspect", "Show a model's input, recipe, batch mode and layers with receptive fields")
         {
-            modelOpt, layersOpt, sizeOpt, jsonOpt,
+            modelOpt, layersOpt, sizeOpt, jsonOpt, memoryOpt,
         };
         cmd.SetAction(parse =>
         {
             try
             {
-                return Run(parse, modelOpt, layersOpt, sizeOpt, jsonOpt);
+                return Run(parse, modelOpt, layersOpt, sizeOpt, jsonOpt, memoryOpt);
             }
             catch (AuditInputException e)
             {
@@ -43,14 +45,29 @@ internal static class InspectCommand
         return cmd;
     }
 
-    private static int Run(ParseResult parse, Option<string> modelOpt, Option<string?> layersOpt, Option<string?> sizeOpt, Option<bool> jsonOpt)
+    private static int Run(ParseResult parse, Option<string> modelOpt, Option<string?> layersOpt, Option<string?> sizeOpt, Option<bool> jsonOpt, Option<bool> memoryOpt)
     {
         var (width, height) = ParseSize(parse.GetValue(sizeOpt));
         var layers = parse.GetValue(layersOpt)?.Split(',', StringSplitOptions.RemoveEmptyEntries | StringSplitOptions.TrimEntries);
         var options = new ModelLoadOptions(layers, new RecipeOverrides(Width: width, Height: height));
+        if (parse.GetValue(memoryOpt))
+        {
+            Console.Out.Write(ToText(IntakeMemory.Measure(parse.GetValue(modelOpt)!, options)));
+            return ExitCodes.Pass;
+        }
         var plan = ModelIntake.Load(parse.GetValue(modelOpt)!, options).Plan;
         Console.Out.Write(parse.GetValue(jsonOpt) ? ToJson(plan) : ToText(plan));
         return ExitCodes.Pass;
+    }
+
+    internal static string ToText(IntakeMemoryResult r)
+    {
+        var w = new StringWriter(CultureInfo.InvariantCulture);
+        w.WriteLine($"model    {r.Model} ({r.ModelFileBytes >> 20} MB on disk); {r.StartBytes >> 20} MB resident before the intake");
+        w.WriteLine("step                                   peak MB  resident MB  seconds");
+        foreach (var s in r.Steps) w.WriteLine($"{s.Step,-38} {s.PeakBytes >> 20,7}  {s.ResidentBytes >> 20,11}  {s.Seconds,7:0.00}");
+        w.WriteLine($"highest peak {r.PeakBytes >> 20} MB = {(double)r.PeakBytes / r.ModelFileBytes:0.0}x the model file");
+        return w.ToString();
     }
 
     internal static (int? Width, int? Height) ParseSize(string? text)

@@ -26,28 +26,8 @@ public static class PeakMemory
     /// <summary>Peak resident bytes since start or the last <see cref="Reset"/>.</summary>
     public static long PeakBytes() => ReadStatus("VmHWM:") ?? Process.GetCurrentProcess().PeakWorkingSet64;
 
-    /// <summary>
-    /// Gives freed memory back to the system: a compacting collection of the managed heap (the model's bytes are
-    /// large objects) and, on glibc, malloc_trim for what ONNX Runtime's discarded sessions freed.
-    /// </summary>
-    public static void Trim()
-    {
-        System.Runtime.GCSettings.LargeObjectHeapCompactionMode = System.Runtime.GCLargeObjectHeapCompactionMode.CompactOnce;
-        GC.Collect(GC.MaxGeneration, GCCollectionMode.Forced, blocking: true, compacting: true);
-        GC.WaitForPendingFinalizers();
-        if (!OperatingSystem.IsLinux()) return;
-        try
-        {
-            _ = MallocTrim(0);
-        }
-        catch (Exception e) when (e is DllNotFoundException or EntryPointNotFoundException)
-        {
-            // Not glibc (musl, say): nothing to trim.
-        }
-    }
-
-    [System.Runtime.InteropServices.DllImport("libc", EntryPoint = "malloc_trim")]
-    private static extern int MallocTrim(nuint pad);
+    /// <summary>Gives freed memory back to the system (<see cref="Models.OrtRunner.ReleaseTransient"/>).</summary>
+    public static void Trim() => Models.OrtRunner.ReleaseTransient();
 
     /// <summary>Current resident bytes.</summary>
     public static long CurrentBytes() => ReadStatus("VmRSS:") ?? Process.GetCurrentProcess().WorkingSet64;

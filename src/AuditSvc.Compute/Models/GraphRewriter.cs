@@ -75,12 +75,13 @@ public static class GraphRewriter
         {
             return false;
         }
-        var singleBytes = single.ToByteArray();
+        // The batched session is gone before the single one is built: one copy of the weights in the runtime at a time.
+        var ones = Enumerable.Range(0, batch)
+            .Select(b => new FloatTensor([1, .. imageShape[1..]], noise.Data.AsSpan(b * per, per).ToArray())).ToList();
+        var singles = OrtRunner.RunEach(single.ToByteArray(), inputName, ones);
         for (int b = 0; b < batch; b++)
         {
-            var one = new FloatTensor([1, .. imageShape[1..]], noise.Data.AsSpan(b * per, per).ToArray());
-            var alone = OrtRunner.Run(singleBytes, inputName, one);
-            foreach (var (name, t) in alone)
+            foreach (var (name, t) in singles[b])
             {
                 if (!together.TryGetValue(name, out var all) || all.Shape.Length == 0 || all.Shape[0] != batch
                     || all.Data.Length != t.Data.Length * batch) return false;

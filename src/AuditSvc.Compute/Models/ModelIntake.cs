@@ -32,9 +32,29 @@ public static class ModelIntake
         long length = new FileInfo(modelPath).Length;
         if (length > OnnxGuard.MaxModelBytes)
             throw new AuditInputException(modelPath, $"the model file is {length} bytes, over the limit of {OnnxGuard.MaxModelBytes} bytes");
-        var bytes = File.ReadAllBytes(modelPath);
-        var model = OnnxGuard.Parse(modelPath, bytes);
+        // The parsed model and its rewritten copies live only inside Plan: from here on only the rewritten bytes do.
+        var (plan, rewritten, imageShape) = Plan(modelPath, options);
+        var read = plan.ReadLayers;
+        if (read.Any(l => l.ReadName != l.Name))
+        {
+            // The channels-first views are nodes the intake added: one run at intake proves the runtime takes them.
+            var views = string.Join(", ", read.Where(l => l.ReadName != l.Name).Select(l => $"'{l.Name}'"));
+            Guarded(modelPath, () => OrtRunner.Run(rewritten, plan.InputName,
+                new FloatTensor(imageShape, new float[checked((int)imageShape.Aggregate(1L, (a, b) => a * b))])), $"reading layers {views} through a channels-first view");
+        }
+        // The parsed model, its copies and the one-shot sessions are garbage now: give their memory back before the
+        // caller builds the pass's session, whose optimiser needs several times the model's size for a moment.
+        OrtRunner.ReleaseTransient();
+        return new LoadedModel(plan, rewritten);
+    }
+
+    private static (ModelPlan Plan, byte[] Rewritten, long[] ImageShape) Plan(string modelPath, ModelLoadOptions options)
+    {
+        var (model, sha256) = ParseHashed(modelPath);
         OnnxGuard.RejectExternalData(modelPath, model);
+        RawWeights.Pack(model.Graph);
+        // Parsing and packing left the weights' old arrays behind.
+        OrtRunner.ReleaseTransient();
         var input = OnnxGuard.ImageInputOf(modelPath, model);
         if (input.Batch is > 1)
             throw new AuditInputException(modelPath,
@@ -64,6 +84,8 @@ public static class ModelIntake
         if (graph.Output.Count == 0) throw new AuditInputException(modelPath, "the graph has no outputs (field 'output')");
         string classOutput = graph.Output[0].Name;
         var shapes = Guarded(modelPath, () => OrtRunner.ProbeShapes(model, input.Name, imageShape));
+        // The probe's serialised copy of the model and its session's memory go before the next step allocates.
+        OrtRunner.ReleaseTransient();
         if (!shapes.TryGetValue(classOutput, out var classShape) || classShape.Length < 2)
             throw new AuditInputException(modelPath, $"the first graph output '{classOutput}' is not a float tensor [N, classes] (field 'output')");
         int classCount = checked((int)classShape.Skip(1).Aggregate(1L, (a, b) => a * b));
@@ -100,21 +122,14 @@ public static class ModelIntake
             var batched = GraphRewriter.ExposeLayers(model, input.Name, readOutput, read, symbolicBatch: true);
             bool free = options.CheckBatch
                 && Guarded(modelPath, () => GraphRewriter.BatchMatchesSingles(single, batched, input.Name, imageShape));
+            OrtRunner.ReleaseTransient();
             if (free) rewritten = batched;
             else batchMode = BatchMode.ConcurrentSingle;
         }
 
-        if (read.Any(l => l.ReadName != l.Name))
-        {
-            // The channels-first views are nodes the intake added: one run at intake proves the runtime takes them.
-            var views = string.Join(", ", read.Where(l => l.ReadName != l.Name).Select(l => $"'{l.Name}'"));
-            Guarded(modelPath, () => OrtRunner.Run(rewritten.ToByteArray(), input.Name,
-                new FloatTensor(imageShape, new float[checked((int)imageShape.Aggregate(1L, (a, b) => a * b))])), $"reading layers {views} through a channels-first view");
-        }
-
         var plan = new ModelPlan(
             Path.GetFullPath(modelPath),
-            Convert.ToHexStringLower(SHA256.HashData(bytes)),
+            sha256,
             input.Name, readOutput, classCount, recipe, layers, batchMode,
             OutputIsProbabilities: probabilities)
         {
@@ -122,7 +137,21 @@ public static class ModelIntake
             Notes = notes,
             Skipped = skipped,
         };
-        return new LoadedModel(plan, rewritten.ToByteArray());
+        return (plan, rewritten.ToByteArray(), imageShape);
+    }
+
+    // One read of the file: the hash is of exactly the bytes parsed.
+    private static (ModelProto Model, string Sha256) ParseHashed(string modelPath)
+    {
+        using var file = new FileStream(modelPath, FileMode.Open, FileAccess.Read, FileShare.Read, bufferSize: 1 << 16);
+        using var sha = SHA256.Create();
+        ModelProto model;
+        using (var hashing = new CryptoStream(file, sha, CryptoStreamMode.Read, leaveOpen: true))
+        {
+            model = OnnxGuard.Parse(modelPath, hashing);
+            hashing.CopyTo(Stream.Null);
+        }
+        return (model, Convert.ToHexStringLower(sha.Hash!));
     }
 
     // ONNX Runtime refusing the graph is a problem with the file, not with the service.

@@ -36,13 +36,16 @@ public static class OnnxGuard
 
     private const int FloatType = (int)TensorProto.Types.DataType.Float;
 
-    /// <summary>Parses the bytes as an ONNX model with a graph.</summary>
-    public static ModelProto Parse(string path, byte[] bytes)
+    /// <summary>
+    /// Parses the stream as an ONNX model with a graph, reading at most <see cref="MaxModelBytes"/>; the file's bytes
+    /// are never held whole beside the parsed model.
+    /// </summary>
+    public static ModelProto Parse(string path, Stream stream)
     {
         ModelProto model;
         try
         {
-            model = ModelProto.Parser.ParseFrom(bytes);
+            model = ModelProto.Parser.ParseFrom(CodedInputStream.CreateWithLimits(stream, (int)MaxModelBytes, recursionLimit: 100));
         }
         catch (InvalidProtocolBufferException e)
         {

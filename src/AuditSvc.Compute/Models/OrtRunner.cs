@@ -1,3 +1,4 @@
+using System.Runtime.InteropServices;
 using Google.Protobuf;
 using Microsoft.ML.OnnxRuntime;
 using Microsoft.ML.OnnxRuntime.Tensors;
@@ -9,7 +10,7 @@ namespace AuditSvc.Compute.Models;
 public sealed record FloatTensor(long[] Shape, float[] Data);
 
 /// <summary>Small one-shot ONNX Runtime runs used by the intake (shape probe, batch check, tests).</summary>
-public static class OrtRunner
+public static partial class OrtRunner
 {
     /// <summary>
     /// Runs the model once on <paramref name="input"/> and copies out every float tensor output;
@@ -17,37 +18,50 @@ public static class OrtRunner
     /// </summary>
     public static IReadOnlyDictionary<string, FloatTensor> Run(
         byte[] model, string inputName, FloatTensor input, IReadOnlyList<string>? outputNames = null,
+        GraphOptimizationLevel level = GraphOptimizationLevel.ORT_DISABLE_ALL) =>
+        RunEach(model, inputName, [input], outputNames, level)[0];
+
+    /// <summary>
+    /// <see cref="Run"/> on each of <paramref name="inputs"/> in turn, with one session: the session holds a copy of
+    /// the weights, so one per input would cost a copy per input.
+    /// </summary>
+    public static IReadOnlyList<IReadOnlyDictionary<string, FloatTensor>> RunEach(
+        byte[] model, string inputName, IReadOnlyList<FloatTensor> inputs, IReadOnlyList<string>? outputNames = null,
         GraphOptimizationLevel level = GraphOptimizationLevel.ORT_DISABLE_ALL)
     {
-        // Failures surface as exceptions the caller handles (the batch check expects some); keep ORT's log quiet.
-        using var options = new SessionOptions
+        ArgumentNullException.ThrowIfNull(inputs);
+        return WithSession(model, level, session =>
         {
-            GraphOptimizationLevel = level, IntraOpNumThreads = 1, InterOpNumThreads = 1,
-            LogSeverityLevel = OrtLoggingLevel.ORT_LOGGING_LEVEL_FATAL,
-        };
-        OrtEnvironment.EnsureQuiet();
-        using var session = new InferenceSession(model, options);
-        var names = outputNames ?? session.OutputNames;
-        using var value = OrtValue.CreateTensorValueFromMemory(input.Data, input.Shape);
-        using var runOptions = new RunOptions();
-        using var results = session.Run(runOptions, [inputName], [value], names);
-        var copied = new Dictionary<string, FloatTensor>(StringComparer.Ordinal);
-        for (int i = 0; i < names.Count; i++)
-        {
-            var r = results[i];
-            if (r.OnnxType != OnnxValueType.ONNX_TYPE_TENSOR) continue;
-            var info = r.GetTensorTypeAndShape();
-            if (info.ElementDataType != TensorElementType.Float) continue;
-            copied[names[i]] = new FloatTensor(info.Shape, r.GetTensorDataAsSpan<float>().ToArray());
-        }
-        return copied;
+            var names = outputNames ?? session.OutputNames;
+            var all = new List<IReadOnlyDictionary<string, FloatTensor>>(inputs.Count);
+            foreach (var input in inputs)
+            {
+                var copied = new Dictionary<string, FloatTensor>(StringComparer.Ordinal);
+                Fetch(session, inputName, input, names, (name, r) =>
+                    copied[name] = new FloatTensor(r.GetTensorTypeAndShape().Shape, r.GetTensorDataAsSpan<float>().ToArray()));
+                all.Add(copied);
+            }
+            return all;
+        });
     }
 
     /// <summary>
     /// Shapes of all float tensors the graph's nodes produce, from one run on a zero input with every
-    /// node output exposed (robust where value_info is missing or stale).
+    /// node output exposed (robust where value_info is missing or stale). Only the shapes leave the runtime.
     /// </summary>
     public static IReadOnlyDictionary<string, long[]> ProbeShapes(ModelProto model, string inputName, long[] inputShape)
+    {
+        var zeros = new FloatTensor(inputShape, new float[checked((int)inputShape.Aggregate(1L, (a, b) => a * b))]);
+        return WithSession(ProbeBytes(model), GraphOptimizationLevel.ORT_DISABLE_ALL, session =>
+        {
+            var shapes = new Dictionary<string, long[]>(StringComparer.Ordinal);
+            Fetch(session, inputName, zeros, session.OutputNames, (name, r) => shapes[name] = r.GetTensorTypeAndShape().Shape);
+            return shapes;
+        });
+    }
+
+    // The probe's copy of the graph lives only until it is serialised.
+    private static byte[] ProbeBytes(ModelProto model)
     {
         var probe = model.Clone();
         var graph = probe.Graph;
@@ -56,9 +70,36 @@ public static class OrtRunner
             foreach (var name in node.Output)
                 if (name.Length > 0 && existing.Add(name))
                     graph.Output.Add(new ValueInfoProto { Name = name });
-        var zeros = new FloatTensor(inputShape, new float[checked((int)inputShape.Aggregate(1L, (a, b) => a * b))]);
-        var outputs = Run(probe.ToByteArray(), inputName, zeros);
-        return outputs.ToDictionary(kv => kv.Key, kv => kv.Value.Shape, StringComparer.Ordinal);
+        return probe.ToByteArray();
+    }
+
+    private static T WithSession<T>(byte[] model, GraphOptimizationLevel level, Func<InferenceSession, T> use)
+    {
+        // Failures surface as exceptions the caller handles (the batch check expects some); keep ORT's log quiet.
+        using var options = new SessionOptions
+        {
+            GraphOptimizationLevel = level, IntraOpNumThreads = 1, InterOpNumThreads = 1,
+            LogSeverityLevel = OrtLoggingLevel.ORT_LOGGING_LEVEL_FATAL,
+        };
+        OrtEnvironment.EnsureQuiet();
+        // What earlier steps left (parsed weights, another session's serialised copy) goes before a session is built.
+        ReleaseTransient();
+        using var session = new InferenceSession(model, options);
+        return use(session);
+    }
+
+    // Hands each float tensor output to `take` while its value is alive; outputs of other types are skipped.
+    private static void Fetch(InferenceSession session, string inputName, FloatTensor input, IReadOnlyList<string> names, Action<string, OrtValue> take)
+    {
+        using var value = OrtValue.CreateTensorValueFromMemory(input.Data, input.Shape);
+        using var runOptions = new RunOptions();
+        using var results = session.Run(runOptions, [inputName], [value], names);
+        for (int i = 0; i < names.Count; i++)
+        {
+            var r = results[i];
+            if (r.OnnxType != OnnxValueType.ONNX_TYPE_TENSOR || r.GetTensorTypeAndShape().ElementDataType != TensorElementType.Float) continue;
+            take(names[i], r);
+        }
     }
 
     /// <summary>Deterministic uniform noise in [−1, 1) for checks that must not depend on the image.</summary>
@@ -69,4 +110,27 @@ public static class OrtRunner
         for (int i = 0; i < data.Length; i++) data[i] = (float)(rng.NextDouble() * 2 - 1);
         return new FloatTensor(shape, data);
     }
+
+    /// <summary>
+    /// Gives memory freed by one-shot work back to the system: an aggressive collection of the managed heap (model
+    /// bytes are large objects) and, on glibc, malloc_trim for what ONNX Runtime's disposed sessions freed.
+    /// </summary>
+    public static void ReleaseTransient()
+    {
+        // Aggressive: compacts the large-object heap too and decommits the free space instead of keeping it for later.
+        GC.Collect(GC.MaxGeneration, GCCollectionMode.Aggressive, blocking: true, compacting: true);
+        GC.WaitForPendingFinalizers();
+        if (!OperatingSystem.IsLinux()) return;
+        try
+        {
+            _ = MallocTrim(0);
+        }
+        catch (Exception e) when (e is DllNotFoundException or EntryPointNotFoundException)
+        {
+            // Not glibc (musl, say): nothing to trim.
+        }
+    }
+
+    [LibraryImport("libc", EntryPoint = "malloc_trim")]
+    private static partial int MallocTrim(nuint pad);
 }

@@ -31,4 +31,15 @@ public class InspectModelFamiliesTests
         Assert.Contains("normalises its own input", stdout);
         Assert.Contains("+global", stdout);
     }
+
+    [Fact]
+    public void Inspect_Memory_PrintsPeakAndResidentPerStep()
+    {
+        // A printed measurement, not a memory assertion: only its shape is checked.
+        var (status, stdout, stderr) = CliProcess.Run("inspect", "--model", Fixture("resnet"), "--memory");
+        Assert.True(status == 0, stderr);
+        foreach (var step in new[] { "intake", "pass sessions built", "first batch of", "after compacting GC and malloc_trim" })
+            Assert.Contains(step, stdout);
+        Assert.Matches(@"highest peak \d+ MB = [\d.]+x the model file", stdout);
+    }
 }

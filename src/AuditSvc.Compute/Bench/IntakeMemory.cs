@@ -1,0 +1,52 @@
+using AuditSvc.Compute.Activations;
+using AuditSvc.Compute.Models;
+
+namespace AuditSvc.Compute.Bench;
+
+/// <summary>One step of <see cref="IntakeMemory.Measure"/>: the peak resident bytes during the step, the resident bytes after it, and its wall-clock time.</summary>
+public sealed record MemoryStep(string Step, long PeakBytes, long ResidentBytes, double Seconds);
+
+/// <summary>What intake and the pass's sessions cost in resident memory, step by step, for one model.</summary>
+public sealed record IntakeMemoryResult(string Model, long ModelFileBytes, long StartBytes, IReadOnlyList<MemoryStep> Steps)
+{
+    /// <summary>The highest peak of all steps.</summary>
+    public long PeakBytes => Steps.Count == 0 ? StartBytes : Steps.Max(s => s.PeakBytes);
+}
+
+/// <summary>
+/// Measures, in this process, the resident memory of model intake and of building the pass on the loaded model:
+/// the peak (VmHWM, reset before each step where the system allows it) and what stays resident after each step.
+/// A printed measurement, not a test: the numbers depend on the runtime, the allocator and the machine.
+/// </summary>
+public static class IntakeMemory
+{
+    public static IntakeMemoryResult Measure(string modelPath, ModelLoadOptions? load = null, PassOptions? pass = null)
+    {
+        var steps = new List<MemoryStep>();
+        var clock = System.Diagnostics.Stopwatch.StartNew();
+        PeakMemory.Trim();
+        long start = PeakMemory.CurrentBytes();
+        PeakMemory.Reset();
+        var model = ModelIntake.Load(modelPath, load);
+        Step(steps, clock, "intake");
+        PeakMemory.Reset();
+        using var activation = new ActivationPass(model.Plan, model.RewrittenModel, pass ?? new PassOptions());
+        Step(steps, clock, "pass sessions built");
+        PeakMemory.Reset();
+        int batch = activation.Options.BatchSize, slot = activation.Preprocessor.SlotLength;
+        var zeros = new float[(long)batch * slot];
+        activation.RunTensors(zeros, batch, null, CancellationToken.None);
+        Step(steps, clock, $"first batch of {batch}");
+        PeakMemory.Reset();
+        PeakMemory.Trim();
+        Step(steps, clock, "after compacting GC and malloc_trim");
+        GC.KeepAlive(model);
+        return new IntakeMemoryResult(Path.GetFileName(modelPath), new FileInfo(modelPath).Length, start, steps);
+    }
+
+    private static void Step(List<MemoryStep> steps, System.Diagnostics.Stopwatch clock, string name)
+    {
+        steps.Add(new MemoryStep(name, PeakMemory.PeakBytes(), PeakMemory.CurrentBytes(), clock.Elapsed.TotalSeconds));
+        clock.Restart();
+    }
+}
