@@ -34,7 +34,7 @@ public sealed class ReportCache(ArtifactStore artifacts, AuditInputsLoader loade
         // Not the caller's token: other requests wait on the same rendering.
         var html = await engine.RenderReportAsync(await loader.LoadAsync(auditId, CancellationToken.None), auditJson, CancellationToken.None);
         Directory.CreateDirectory(Path.GetDirectoryName(path)!);
-        var temp = path + "." + Guid.NewGuid().ToString("N") + ".tmp";
+        var temp = artifacts.ScratchPath(); // a kill mid-write leaves nothing under reports/
         await File.WriteAllTextAsync(temp, html, CancellationToken.None);
         File.Move(temp, path, overwrite: true);
         return path;
