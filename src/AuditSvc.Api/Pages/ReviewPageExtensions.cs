@@ -35,7 +35,7 @@ public static class ReviewPageExtensions
     public static WebApplication MapReviewPages(this WebApplication app)
     {
         app.MapGet("/", () => Results.Redirect("/ui/audits")).AllowAnonymous().ExcludeFromDescription();
-        app.MapGroup("/ui").RequireAuthorization(ReviewerCookie.Policy).ExcludeFromDescription()
+        app.MapGroup("/ui").RequireAuthorization(ReviewerCookie.Policy).RequireRateLimiting(KeyRateLimits.PagePolicy).ExcludeFromDescription()
             .MapLogin()
             .MapAuditList()
             .MapAuditPage();
