@@ -35,8 +35,18 @@ public sealed class ReportCache(ArtifactStore artifacts, AuditInputsLoader loade
         var html = await engine.RenderReportAsync(await loader.LoadAsync(auditId, CancellationToken.None), auditJson, CancellationToken.None);
         Directory.CreateDirectory(Path.GetDirectoryName(path)!);
         var temp = artifacts.ScratchPath(); // a kill mid-write leaves nothing under reports/
-        await File.WriteAllTextAsync(temp, html, CancellationToken.None);
-        File.Move(temp, path, overwrite: true);
-        return path;
+        try
+        {
+            // Streamed, not File.WriteAllTextAsync: its preallocation reports a full disk without the errno that makes it a 507.
+            await using (var stream = new FileStream(temp, FileMode.CreateNew, FileAccess.Write, FileShare.None, 1 << 16, useAsync: true))
+            await using (var writer = new StreamWriter(stream, new System.Text.UTF8Encoding(false)))
+                await writer.WriteAsync(html.AsMemory(), CancellationToken.None);
+            File.Move(temp, path, overwrite: true);
+            return path;
+        }
+        finally
+        {
+            if (File.Exists(temp)) File.Delete(temp);
+        }
     }
 }
