@@ -12,27 +12,39 @@ using Xunit.Abstractions;
 namespace AuditSvc.Api.Tests.Faults;
 
 /// <summary>
-/// The artifact root's disk fills during an upload: 507 Insufficient Storage as a problem document saying what failed
+/// The artifact root's disk fills during an upload (while it is received, or while an archive is unpacked): 507 Insufficient Storage as a problem document saying what failed
 /// and what to do, nothing of the upload left, and the service goes on serving (a later upload that fits succeeds).
 /// </summary>
 public sealed class FullDiskTests(ITestOutputHelper output)
 {
-    [PgFact]
-    public async Task Upload_DiskFillsUp_Is507AndLeavesNothing()
+    [PgTheory]
+    [InlineData("model")]
+    [InlineData("image-set")]
+    public async Task Upload_DiskFillsUp_Is507AndLeavesNothing(string kind)
     {
         var root = Directory.CreateTempSubdirectory("auditsvc-full-").FullName;
         var mounted = FullDisk.TryMount(root, "1m");
-        output.WriteLine(mounted ? "artifact root: a 1 MiB tmpfs" : "mount refused: the model check writes to /dev/full instead");
+        output.WriteLine(mounted ? "artifact root: a 1 MiB tmpfs" : "mount refused: the engine's model check or set intake writes to /dev/full instead");
         try
         {
             await using var svc = await ServiceUnderTest.StartAsync(workers: 0,
                 engine: mounted ? null : new DevFullEngine(),
                 settings: new Dictionary<string, string?> { ["AUDITSVC_DATA"] = root });
             using var client = await svc.ClientAsync("team-a");
-            var big = new byte[mounted ? 3 << 20 : 4096];
-            new Random(5).NextBytes(big);
-
-            var response = await PostModelAsync(client, big);
+            HttpResponseMessage response;
+            if (kind == "model")
+            {
+                // Mounted: the upload itself fills the disk. Else the model check writes to /dev/full.
+                var big = new byte[mounted ? 3 << 20 : 4096];
+                new Random(5).NextBytes(big);
+                response = await PostModelAsync(client, big);
+            }
+            else
+            {
+                // Mounted: a small archive whose images (zeros, 400 KiB each) fill the disk while it is unpacked.
+                // Else the set's intake writes to /dev/full.
+                response = await Uploads.PostZipAsync(client, mounted ? ZerosZip(3, 400 << 10) : Uploads.Zip(2, "cat", "dog"));
+            }
 
             Assert.Equal((HttpStatusCode)507, response.StatusCode);
             Assert.Equal("application/problem+json", response.Content.Headers.ContentType!.MediaType);
@@ -58,6 +70,20 @@ public sealed class FullDiskTests(ITestOutputHelper output)
         }
     }
 
+    private static byte[] ZerosZip(int files, int size)
+    {
+        using var ms = new MemoryStream();
+        using (var zip = new System.IO.Compression.ZipArchive(ms, System.IO.Compression.ZipArchiveMode.Create, leaveOpen: true))
+        {
+            for (int i = 0; i < files; i++)
+            {
+                using var s = zip.CreateEntry($"{(i % 2 == 0 ? "cat" : "dog")}/{i}.png").Open();
+                s.Write(new byte[size]);
+            }
+        }
+        return ms.ToArray();
+    }
+
     private static async Task<HttpResponseMessage> PostModelAsync(HttpClient client, byte[] bytes)
     {
         using var form = new MultipartFormDataContent();
@@ -79,7 +105,12 @@ public sealed class FullDiskTests(ITestOutputHelper output)
             return await _inner.InspectModelAsync(modelPath, ct);
         }
 
-        public Task<ItemTable> IntakeImageSetAsync(string folder, IReadOnlyList<string>? classNames, CancellationToken ct) => _inner.IntakeImageSetAsync(folder, classNames, ct);
+        public async Task<ItemTable> IntakeImageSetAsync(string folder, IReadOnlyList<string>? classNames, CancellationToken ct)
+        {
+            await File.WriteAllBytesAsync("/dev/full", new byte[4096], ct);
+            return await _inner.IntakeImageSetAsync(folder, classNames, ct);
+        }
+
         public Task<byte[]> RunChunkAsync(AuditInputs inputs, int start, int count, CancellationToken ct) => _inner.RunChunkAsync(inputs, start, count, ct);
         public Task<string> RenderReportAsync(AuditInputs inputs, string auditJson, CancellationToken ct) => _inner.RenderReportAsync(inputs, auditJson, ct);
         public Task<AuditOutcome> FinishAsync(AuditInputs inputs, IReadOnlyList<byte[]> chunks, CancellationToken ct) => _inner.FinishAsync(inputs, chunks, ct);

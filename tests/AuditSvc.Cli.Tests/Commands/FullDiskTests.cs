@@ -41,4 +41,24 @@ public class FullDiskTests(ITestOutputHelper output)
             if (mounted) FullDisk.Unmount(outDir);
         }
     }
+
+    [Fact]
+    public void DiskFull_WritesThatPreallocateOnAFullDisk_AreRecognised()
+    {
+        var dir = CliProcess.TempDir("prealloc");
+        var mounted = FullDisk.TryMount(dir, "16k");
+        output.WriteLine(mounted ? "a 16 KiB tmpfs" : "mount refused: /dev/full");
+        try
+        {
+            var target = mounted ? Path.Combine(dir, "big.txt") : "/dev/full";
+            var e = Assert.ThrowsAny<IOException>(() => File.WriteAllText(target, new string('x', 100_000)));
+            Assert.True(Core.DiskFull.Is(e), $"not recognised: 0x{e.HResult:x8} {e.Message}");
+            Assert.False(Core.DiskFull.Is(new IOException("some other failure")));
+            Assert.False(Core.DiskFull.Is(new FileNotFoundException("gone")));
+        }
+        finally
+        {
+            if (mounted) FullDisk.Unmount(dir);
+        }
+    }
 }
