@@ -191,10 +191,21 @@ internal sealed partial class ScratchSweeper(ScratchSpace scratch, ILogger<Scrat
 
     private void Run()
     {
-        var removed = scratch.Sweep();
-        if (removed > 0) Swept(log, removed);
+        try
+        {
+            var removed = scratch.Sweep();
+            if (removed > 0) Swept(log, removed);
+        }
+        catch (Exception e) when (e is IOException or UnauthorizedAccessException)
+        {
+            // A sweep that cannot read the root (unmounted, permissions) must not stop the host; the next one retries.
+            SweepFailed(log, e.Message);
+        }
     }
 
     [LoggerMessage(EventId = 5001, Level = LogLevel.Information, Message = "removed {Count} partial files or folders left in scratch by processes that ended")]
     private static partial void Swept(ILogger logger, int count);
+
+    [LoggerMessage(EventId = 5002, Level = LogLevel.Warning, Message = "the scratch sweep could not finish: {Reason}")]
+    private static partial void SweepFailed(ILogger logger, string reason);
 }
