@@ -7,7 +7,7 @@ namespace AuditSvc.Api.Tests;
 /// <summary>
 /// `dotnet AuditSvc.Api.Tests.dll worker` runs a real worker process with the counting engine, so tests can
 /// share an audit between processes and kill one mid-chunk; `… scratch ROOT` holds a partial upload in its scratch
-/// until it is killed. The test runner never calls this.
+/// until it is killed; `… sweep ROOT` sweeps once. The test runner never calls this.
 /// </summary>
 public static class WorkerProgram
 {
@@ -23,6 +23,13 @@ public static class WorkerProgram
             await file.FlushAsync();
             Console.WriteLine(partial);
             await Task.Delay(Timeout.Infinite);
+            return 0;
+        }
+        if (args is ["sweep", var sweepRoot])
+        {
+            // One sweep from this process (its environment may switch file locking off), the count on stdout.
+            using var scratch = new global::AuditSvc.Api.Artifacts.ScratchSpace(sweepRoot);
+            Console.WriteLine(scratch.Sweep());
             return 0;
         }
         if (args.Length == 0 || args[0] != "worker") return 2;

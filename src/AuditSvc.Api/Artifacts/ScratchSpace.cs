@@ -32,6 +32,7 @@ public sealed class ScratchSpace : IDisposable
     private string? _mine;
     private FileStream? _owner;
     private bool _closed;
+    private bool? _locksWork;
 
     public ScratchSpace(IOptions<ServiceOptions> options) : this(options.Value.DataRoot) { }
 
@@ -80,7 +81,10 @@ public sealed class ScratchSpace : IDisposable
         {
             foreach (var dir in Directory.EnumerateDirectories(Root))
             {
-                if (string.Equals(dir, _mine, StringComparison.Ordinal) || !OwnerGone(LockOf(Path.GetFileName(dir)), dir)) continue;
+                if (string.Equals(dir, _mine, StringComparison.Ordinal)) continue;
+                // Where locks are not enforced (DOTNET_SYSTEM_IO_DISABLEFILELOCKING, a file system without them), a
+                // live owner cannot be told from a dead one: keep every folder rather than remove a live upload.
+                if (!LocksWork() || !OwnerGone(LockOf(Path.GetFileName(dir)), dir)) continue;
                 if (TryDelete(dir)) removed++;
             }
             foreach (var file in Directory.EnumerateFiles(Root))
@@ -92,7 +96,7 @@ public sealed class ScratchSpace : IDisposable
             foreach (var lockFile in Directory.EnumerateFiles(Owners, "*.lock"))
             {
                 var dir = Path.Combine(Root, Path.GetFileNameWithoutExtension(lockFile));
-                if (!Directory.Exists(dir) && OwnerGone(lockFile, null)) TryDelete(lockFile);
+                if (!Directory.Exists(dir) && LocksWork() && OwnerGone(lockFile, null)) TryDelete(lockFile);
             }
         }
         // Older versions kept partial uploads as scratch/<32 hex digits>, files or folders, with no owner.
@@ -110,6 +114,32 @@ public sealed class ScratchSpace : IDisposable
     }
 
     private static bool Old(DateTime lastWriteUtc) => lastWriteUtc < DateTime.UtcNow - UnownedAge;
+
+    /// <summary>Whether an exclusive lock held by one handle keeps a second one out here (checked once, on a probe file).</summary>
+    internal bool LocksWork()
+    {
+        if (_locksWork is { } known) return known;
+        Directory.CreateDirectory(Root);
+        var probe = Path.Combine(Root, $"probe-{Guid.NewGuid():N}");
+        try
+        {
+            using var first = new FileStream(probe, FileMode.CreateNew, FileAccess.ReadWrite, FileShare.None);
+            try
+            {
+                using var second = new FileStream(probe, FileMode.Open, FileAccess.ReadWrite, FileShare.None);
+                _locksWork = false;
+            }
+            catch (IOException)
+            {
+                _locksWork = true;
+            }
+        }
+        finally
+        {
+            TryDelete(probe);
+        }
+        return _locksWork.Value;
+    }
 
     private string LockOf(string instance) => Path.Combine(Owners, instance + ".lock");
 

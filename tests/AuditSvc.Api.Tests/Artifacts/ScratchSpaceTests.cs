@@ -95,4 +95,32 @@ public class ScratchSpaceTests
         using (var scratch = new ScratchSpace(root)) scratch.Sweep();
         Assert.Empty(Directory.GetFileSystemEntries(root));
     }
+
+    [Fact]
+    public void Sweep_WhereFileLocksAreSwitchedOff_KeepsEveryOwnedFolder()
+    {
+        var root = NewRoot();
+        var live = LeaveKilledUpload(root, "55-alive");
+        using var held = new FileStream(Path.Combine(root, ScratchSpace.OwnersFolder, "55-alive.lock"), FileMode.Open, FileAccess.ReadWrite, FileShare.None);
+        var psi = new System.Diagnostics.ProcessStartInfo("dotnet") { UseShellExecute = false, RedirectStandardOutput = true };
+        psi.ArgumentList.Add("exec");
+        psi.ArgumentList.Add(typeof(WorkerProgram).Assembly.Location);
+        psi.ArgumentList.Add("sweep");
+        psi.ArgumentList.Add(root);
+        psi.Environment["DOTNET_SYSTEM_IO_DISABLEFILELOCKING"] = "1"; // .NET's own switch: FileShare.None locks nothing
+        using var sweeper = System.Diagnostics.Process.Start(psi)!;
+        var removed = sweeper.StandardOutput.ReadToEnd().Trim();
+        sweeper.WaitForExit();
+
+        Assert.Equal("0", removed);
+        Assert.True(Directory.Exists(live));
+        Assert.NotEmpty(Directory.GetFiles(live, "*", SearchOption.AllDirectories));
+    }
+
+    [Fact]
+    public void LocksWork_OnThisMachinesTempFolder_IsTrue()
+    {
+        using var scratch = new ScratchSpace(NewRoot());
+        Assert.True(scratch.LocksWork());
+    }
 }
