@@ -11,18 +11,18 @@ namespace AuditSvc.Api.Artifacts;
 public sealed record StoredArtifact(string ContentHash, string RelativePath, string FullPath, long Length, bool Created = false);
 
 /// <summary>
-/// Content-addressed files under the artifact root: an upload is streamed to a scratch file while it is
-/// hashed, then moved to blobs/sha256/ab/abcd….ext; a second upload of the same bytes finds it there and is
-/// dropped. Nothing is held in memory whole.
+/// Content-addressed files under the artifact root: an upload is streamed to a scratch file (this process's own
+/// <see cref="ScratchSpace"/>, swept when the process is gone) while it is hashed, then moved to
+/// blobs/sha256/ab/abcd….ext; a second upload of the same bytes finds it there and is dropped. Nothing is held in
+/// memory whole.
 /// </summary>
-public sealed class ArtifactStore(IOptions<ServiceOptions> options)
+public sealed class ArtifactStore(IOptions<ServiceOptions> options, ScratchSpace scratch)
 {
     public string Root { get; } = Path.GetFullPath(options.Value.DataRoot);
 
     public async Task<StoredArtifact> SaveAsync(Stream content, string extension, long maxBytes, string field, CancellationToken ct)
     {
-        var scratch = Directory.CreateDirectory(Path.Combine(Root, "scratch")).FullName;
-        var temp = Path.Combine(scratch, Guid.NewGuid().ToString("N"));
+        var temp = scratch.NewPath();
         string hash;
         long length = 0;
         try
@@ -72,7 +72,7 @@ public sealed class ArtifactStore(IOptions<ServiceOptions> options)
         var relative = Path.Combine("sets", zip.ContentHash.Replace("sha256:", "", StringComparison.Ordinal));
         var target = Path.Combine(Root, relative);
         if (Directory.Exists(target)) return (relative, false);
-        var temp = Path.Combine(Root, "scratch", Guid.NewGuid().ToString("N"));
+        var temp = scratch.NewPath();
         try
         {
             ZipExtractor.Extract(zip.FullPath, temp, limits, field, ct);
@@ -97,17 +97,18 @@ public sealed class ArtifactStore(IOptions<ServiceOptions> options)
     /// <summary>
     /// The engine reads a model's recipe from &lt;name&gt;.recipe.json beside it, and one file may be uploaded
     /// with different recipes: each (model, recipe) pair gets a folder named by both hashes, holding a link
-    /// to the stored model and the recipe text. Returns the model path in it, relative to the root.
+    /// to the stored model and the recipe text. Returns the model path in it, relative to the root, and whether
+    /// this call made the folder (so a rejected upload can remove what it alone left).
     /// </summary>
-    public string PlaceModel(StoredArtifact model, string? recipeJson)
+    public (string Relative, bool Created) PlaceModel(StoredArtifact model, string? recipeJson)
     {
         var modelHash = model.ContentHash.Replace("sha256:", "", StringComparison.Ordinal);
         var recipeHash = recipeJson is null ? "none"
             : Convert.ToHexStringLower(SHA256.HashData(System.Text.Encoding.UTF8.GetBytes(recipeJson)))[..16];
         var relative = Path.Combine("models", $"{modelHash[..16]}-{recipeHash}", "model.onnx");
         var full = Path.Combine(Root, relative);
-        if (File.Exists(full)) return relative;
-        var temp = Path.Combine(Root, "scratch", Guid.NewGuid().ToString("N"));
+        if (File.Exists(full)) return (relative, false);
+        var temp = scratch.NewPath();
         Directory.CreateDirectory(temp);
         try
         {
@@ -115,8 +116,8 @@ public sealed class ArtifactStore(IOptions<ServiceOptions> options)
             if (recipeJson is not null) File.WriteAllText(Path.Combine(temp, "model.recipe.json"), recipeJson);
             Directory.CreateDirectory(Path.GetDirectoryName(Path.GetDirectoryName(full)!)!);
             try { Directory.Move(temp, Path.GetDirectoryName(full)!); }
-            catch (IOException) when (File.Exists(full)) { /* placed by an identical upload */ }
-            return relative;
+            catch (IOException) when (File.Exists(full)) { return (relative, false); /* placed by an identical upload */ }
+            return (relative, true);
         }
         finally
         {
@@ -160,4 +161,7 @@ public sealed class ArtifactStore(IOptions<ServiceOptions> options)
         !string.IsNullOrEmpty(name) && name is not ("." or "..") && name.All(c => char.IsAsciiLetterOrDigit(c) || c is '-' or '_' or '.');
 
     public string FullPath(string relative) => Path.Combine(Root, relative);
+
+    /// <summary>A fresh scratch path of this process, for work that is moved into place when complete.</summary>
+    public string ScratchPath() => scratch.NewPath();
 }

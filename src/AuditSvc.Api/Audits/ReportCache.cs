@@ -34,9 +34,19 @@ public sealed class ReportCache(ArtifactStore artifacts, AuditInputsLoader loade
         // Not the caller's token: other requests wait on the same rendering.
         var html = await engine.RenderReportAsync(await loader.LoadAsync(auditId, CancellationToken.None), auditJson, CancellationToken.None);
         Directory.CreateDirectory(Path.GetDirectoryName(path)!);
-        var temp = path + "." + Guid.NewGuid().ToString("N") + ".tmp";
-        await File.WriteAllTextAsync(temp, html, CancellationToken.None);
-        File.Move(temp, path, overwrite: true);
-        return path;
+        var temp = artifacts.ScratchPath(); // a kill mid-write leaves nothing under reports/
+        try
+        {
+            // Streamed, not File.WriteAllTextAsync: its preallocation reports a full disk without the errno that makes it a 507.
+            await using (var stream = new FileStream(temp, FileMode.CreateNew, FileAccess.Write, FileShare.None, 1 << 16, useAsync: true))
+            await using (var writer = new StreamWriter(stream, new System.Text.UTF8Encoding(false)))
+                await writer.WriteAsync(html.AsMemory(), CancellationToken.None);
+            File.Move(temp, path, overwrite: true);
+            return path;
+        }
+        finally
+        {
+            if (File.Exists(temp)) File.Delete(temp);
+        }
     }
 }

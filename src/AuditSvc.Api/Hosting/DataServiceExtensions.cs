@@ -25,8 +25,10 @@ public static class DataServiceExtensions
         services.AddSingleton<AuditStore>();
         services.AddSingleton<ChunkStore>();
         services.AddSingleton<ReviewStore>();
+        services.AddSingleton<ScratchSpace>();
         services.AddSingleton<ArtifactStore>();
         services.AddHostedService<MigrateOnStart>();
+        services.AddHostedService<ScratchSweeper>();
         return services;
     }
 

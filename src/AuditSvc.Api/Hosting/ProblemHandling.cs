@@ -101,6 +101,23 @@ public static class ProblemHandling
                     ProblemDetails = { Status = 503, Title = "the database is unavailable; try again shortly" },
                 });
             }
+            if (DiskFull.Is(exception))
+            {
+                // 507 Insufficient Storage (RFC 4918): the request was fine, the server has no room; whatever the
+                // request had written is already removed by the code that wrote it.
+                http.Response.StatusCode = StatusCodes.Status507InsufficientStorage;
+                http.Response.Headers.RetryAfter = "60";
+                return await problems.TryWriteAsync(new ProblemDetailsContext
+                {
+                    HttpContext = http,
+                    Exception = exception,
+                    ProblemDetails =
+                    {
+                        Status = StatusCodes.Status507InsufficientStorage,
+                        Title = "the service's disk is full: nothing of this request was kept; retry later, or ask the operator to free space under the artifact root",
+                    },
+                });
+            }
             var (status, title, field) = exception switch
             {
                 AuditInputException e => (400, e.Message, e.Subject),

@@ -37,14 +37,26 @@ public static class ModelEndpoints
         ModelStore models, IOptions<ServiceOptions> options, CancellationToken ct)
     {
         var form = await MultipartUpload.ReadAsync(request, "model", ".onnx", artifacts, options.Value.MaxUploadBytes, ct);
-        var recipe = JsonText.Object(form.Fields.GetValueOrDefault("recipe"), "recipe");
-        var placed = artifacts.PlaceModel(form.File, recipe);
-        var intake = await engine.InspectModelAsync(artifacts.FullPath(placed), ct);
-        var name = form.Fields.GetValueOrDefault("name") is { Length: > 0 } n ? n : "model";
-        if (name.Length > 200) throw new AuditInputException("name", "longer than 200 characters");
-        var row = await models.AddAsync(request.HttpContext.User.TeamId(), name, form.File.ContentHash, placed,
-            intake.RecipeJson, intake.LayersJson, ct);
-        return TypedResults.Created($"/api/models/{row.Id}", ModelResponse.From(row));
+        string? createdFolder = null;
+        try
+        {
+            var name = form.Fields.GetValueOrDefault("name") is { Length: > 0 } n ? n : "model";
+            if (name.Length > 200) throw new AuditInputException("name", "longer than 200 characters");
+            var recipe = JsonText.Object(form.Fields.GetValueOrDefault("recipe"), "recipe");
+            var (placed, created) = artifacts.PlaceModel(form.File, recipe);
+            if (created) createdFolder = Path.GetDirectoryName(placed);
+            var intake = await engine.InspectModelAsync(artifacts.FullPath(placed), ct);
+            var row = await models.AddAsync(request.HttpContext.User.TeamId(), name, form.File.ContentHash, placed,
+                intake.RecipeJson, intake.LayersJson, ct);
+            return TypedResults.Created($"/api/models/{row.Id}", ModelResponse.From(row));
+        }
+        catch
+        {
+            // A refused model (not ONNX, a refused shape, a bad recipe or name) or a cancelled request leaves
+            // nothing behind that it alone put there: neither the blob nor its (model, recipe) folder.
+            artifacts.Discard(form.File, createdFolder);
+            throw;
+        }
     }
 
     private static async Task<IResult> List(HttpContext http, ModelStore models, CancellationToken ct,

@@ -34,7 +34,7 @@ internal static class AuditPage
     }
 
     private static async Task<IResult> ShowAsync(Guid id, HttpContext http, AuditStore audits, ModelStore models, ImageSetStore sets,
-        ReviewStore reviews, CancellationToken ct)
+        ReviewStore reviews, ParsedResults results, CancellationToken ct)
     {
         var team = http.User.TeamId();
         if (await audits.GetAsync(team, id, ct) is not { } row)
@@ -52,7 +52,7 @@ internal static class AuditPage
         sb.Append(" · state <span id=\"state\">").Append(E(a.State)).Append("</span></p>\n");
 
         var active = a.State is "queued" or "running" or "merging";
-        if (a.State != "done" || a.Verdict is null || await audits.ResultAsync(team, id, ct) is not { } json)
+        if (a.State != "done" || a.Verdict is null || await results.GetAsync(audits, team, id, ct) is not { } parsed)
         {
             Progress(sb, a, active);
             sb.Append("</div>\n");
@@ -67,7 +67,7 @@ internal static class AuditPage
         Guid? just = Guid.TryParse(http.Request.Query["recorded"], out var r) ? r : null;
         var token = PageForms.TokenField(http);
         if (overridden is not null) CueReview.OverrideNotice(sb, overridden, a.Verdict, just);
-        var result = TryRead(json);
+        var result = parsed.Result;
         if (result is null)
         {
             // A result without the engine's details (a stand-in engine, or a document from elsewhere): the verdict alone.

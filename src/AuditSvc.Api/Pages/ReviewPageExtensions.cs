@@ -22,6 +22,7 @@ public static class ReviewPageExtensions
             .SetApplicationName("AuditSvc")
             .PersistKeysToFileSystem(new DirectoryInfo(Path.Combine(settings.DataRoot, "keys", "data-protection")));
         services.AddAntiforgery(PageForms.Configure);
+        services.AddSingleton<ParsedResults>();
         services.AddAuthentication().AddCookie(ReviewerCookie.Scheme, ReviewerCookie.Configure);
         services.AddAuthorizationBuilder().AddPolicy(ReviewerCookie.Policy, p => p
             .AddAuthenticationSchemes(ReviewerCookie.Scheme)
@@ -34,7 +35,7 @@ public static class ReviewPageExtensions
     public static WebApplication MapReviewPages(this WebApplication app)
     {
         app.MapGet("/", () => Results.Redirect("/ui/audits")).AllowAnonymous().ExcludeFromDescription();
-        app.MapGroup("/ui").RequireAuthorization(ReviewerCookie.Policy).ExcludeFromDescription()
+        app.MapGroup("/ui").RequireAuthorization(ReviewerCookie.Policy).RequireRateLimiting(KeyRateLimits.PagePolicy).ExcludeFromDescription()
             .MapLogin()
             .MapAuditList()
             .MapAuditPage();

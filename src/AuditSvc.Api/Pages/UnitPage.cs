@@ -23,16 +23,16 @@ internal static class UnitPage
     public static string Href(Guid auditId, string layer, int unit, bool whole = false) =>
         $"/ui/audits/{auditId}/units/{unit}?layer={Uri.EscapeDataString(layer)}{(whole ? "&view=whole" : "")}";
 
-    public static async Task<IResult> ShowAsync(Guid id, int unit, HttpContext http, AuditStore audits, CancellationToken ct)
+    public static async Task<IResult> ShowAsync(Guid id, int unit, HttpContext http, AuditStore audits, ParsedResults results, CancellationToken ct)
     {
         var team = http.User.TeamId();
         var layer = http.Request.Query["layer"].ToString();
         var back = $"/ui/audits/{id}";
-        if (await audits.ResultAsync(team, id, ct) is not { } json)
+        if (await results.GetAsync(audits, team, id, ct) is not { } parsed)
             return Message(http, 404, "Unit not found", $"No finished audit {id} for this team.", "/ui/audits");
         if (layer.Length is 0 or > MaxLayerName)
             return Message(http, 400, "Unit not found", "layer is required (a tensor name of the model).", back);
-        var result = AuditPage.TryRead(json);
+        var result = parsed.Result;
         if (result is null || !HtmlReport.HasUnit(result, layer, unit))
             return Message(http, 404, "Unit not found", $"This audit has no findings for unit {unit} of {layer}.", back);
 

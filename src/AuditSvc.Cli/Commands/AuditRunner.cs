@@ -11,21 +11,57 @@ internal static class AuditRunner
     public static int RunAndWrite(AuditRequest request, string outDir, CancellationToken ct)
     {
         Directory.CreateDirectory(outDir);
-        bool tty = !Console.IsErrorRedirected;
-        var progress = new Progress(tty);
-        var clock = new PhaseClock();
-        var run = AuditPipeline.Run(request, progress, clock.Wrap(progress.Stage), ct);
-        progress.End();
-        var json = Path.Combine(outDir, "audit.json");
-        var html = Path.Combine(outDir, "report.html");
-        var drawing = System.Diagnostics.Stopwatch.StartNew();
-        File.WriteAllText(html, HtmlReport.Render(run.Result, ExemplarImagesFor(run)));
-        // audit.json last, so it carries the report's time too (the report shows the phases before it).
-        var result = run.Result with { Phases = clock.Times(clock.Seconds(AuditStage.Intake), drawing.Elapsed.TotalSeconds) };
-        AuditJson.Write(json, result);
-        TryDelete(request.WorkDirectory);
-        PrintSummary(result, json, html);
-        return result.Verdict == "pass" ? ExitCodes.Pass : ExitCodes.Block;
+        try
+        {
+            bool tty = !Console.IsErrorRedirected;
+            var progress = new Progress(tty);
+            var clock = new PhaseClock();
+            var run = AuditPipeline.Run(request, progress, clock.Wrap(progress.Stage), ct);
+            progress.End();
+            var json = Path.Combine(outDir, "audit.json");
+            var html = Path.Combine(outDir, "report.html");
+            var drawing = System.Diagnostics.Stopwatch.StartNew();
+            var report = HtmlReport.Render(run.Result, ExemplarImagesFor(run));
+            // audit.json carries the report's time too (the report shows the phases before it).
+            var result = run.Result with { Phases = clock.Times(clock.Seconds(AuditStage.Intake), drawing.Elapsed.TotalSeconds) };
+            WriteWhole(outDir, (html, report), (json, AuditJson.Serialize(result) + "\n"));
+            PrintSummary(result, json, html);
+            return result.Verdict == "pass" ? ExitCodes.Pass : ExitCodes.Block;
+        }
+        finally
+        {
+            TryDelete(request.WorkDirectory);
+        }
+    }
+
+    /// <summary>
+    /// Writes every file to a partial name beside it, then renames them all into place: a full disk or a kill
+    /// leaves no half-written audit.json or report.html (a gate must never read a truncated verdict), and the
+    /// partial files of a failed write are removed.
+    /// </summary>
+    internal static void WriteWhole(string outDir, params (string Path, string Text)[] files)
+    {
+        var partial = files.Select(f => System.IO.Path.Combine(outDir, "." + System.IO.Path.GetFileName(f.Path) + ".partial")).ToArray();
+        try
+        {
+            for (int i = 0; i < files.Length; i++)
+            {
+                // Streamed, not File.WriteAllText: its preallocation reports a full disk without the errno (ENOSPC)
+                // that tells it apart from a bug.
+                using var stream = new FileStream(partial[i], FileMode.Create, FileAccess.Write, FileShare.None);
+                using var writer = new StreamWriter(stream, new System.Text.UTF8Encoding(false));
+                writer.Write(files[i].Text);
+            }
+            for (int i = 0; i < files.Length; i++) File.Move(partial[i], files[i].Path, overwrite: true);
+        }
+        catch
+        {
+            foreach (var p in partial)
+            {
+                try { File.Delete(p); } catch (IOException) { } catch (UnauthorizedAccessException) { }
+            }
+            throw;
+        }
     }
 
     private static IExemplarImages ExemplarImagesFor(AuditRun run) =>

@@ -30,7 +30,7 @@ public static class EnvironmentErrors
                     return $"cannot reach the service ({FirstLine(h.Message)}): check --server and that the service runs";
                 case TaskCanceledException t when t.InnerException is TimeoutException:
                     return "the service did not answer in time: check --server and the service's health (GET /health)";
-                case IOException io when IsDiskFull(io):
+                case IOException io when Core.DiskFull.Is(io):
                     return $"the disk is full ({FirstLine(io.Message)}): free space or choose another --out";
             }
         }
@@ -49,9 +49,6 @@ public static class EnvironmentErrors
         var state when state[..2] is "08" or "53" or "57" or "58" => $"PostgreSQL answered {pg.SqlState} ({pg.MessageText}): check the server and retry",
         _ => null,
     };
-
-    // ENOSPC (28) and EDQUOT (122) on Linux; ERROR_DISK_FULL / ERROR_HANDLE_DISK_FULL on Windows.
-    private static bool IsDiskFull(IOException io) => (io.HResult & 0xFFFF) is 28 or 122 or 0x70 or 0x27;
 
     private static T? Find<T>(Exception e) where T : Exception
     {

@@ -249,6 +249,7 @@ public static class SetIntake
             // Streamed: the header is identified (size checked before any pixel is decoded), then the file is
             // hashed from the same stream, never read whole; a JPEG is checked for an end after its last scan.
             using var stream = new FileStream(info.FullName, FileMode.Open, FileAccess.Read, FileShare.Read, 64 * 1024);
+            if (AnimatedWebp.Problem(stream) is { } animated) return (null, animated);
             var image = Image.Identify(ImageDecoding.Configuration, stream, out var format);
             if (image is null) return (null, "not a decodable image (unknown format)");
             if (ImageDecoding.SizeProblem(image) is { } tooLarge) return (null, tooLarge);

@@ -12,7 +12,9 @@ namespace AuditSvc.Compute.Imaging;
 /// so every stage sees the same pixels:
 /// <list type="bullet">
 /// <item>the header is read first and an image over <see cref="MaxPixels"/> is refused before any pixel is decoded;</item>
-/// <item>animated GIF and multi-page TIFF: the first frame only (an animated WebP is decoded whole by ImageSharp 2.1, then its first frame used);</item>
+/// <item>animated GIF and multi-page TIFF: the first frame only; an animated PNG: its default image (ImageSharp 2.1
+/// does not read the animation chunks); an animated WebP is refused with its frame count and canvas, read from its
+/// RIFF chunks before any decoder sees it (ImageSharp 2.1 cannot decode animated WebP at all);</item>
 /// <item>grey, 16-bit and CMYK images are converted to 8-bit RGB by the decoder;</item>
 /// <item>EXIF orientation is not applied: pixels are read as stored, as common training loaders read them
 /// (PIL and OpenCV's IMREAD_UNCHANGED do not rotate; common practice), so the audit sees what the model was fed.</item>
@@ -47,6 +49,7 @@ public static class ImageDecoding
     public static Image<Rgb24> Load(string path)
     {
         using var stream = new FileStream(path, FileMode.Open, FileAccess.Read, FileShare.Read, 64 * 1024);
+        if (AnimatedWebp.Problem(stream) is { } animated) throw new InvalidImageContentException(animated);
         var info = Image.Identify(Configuration, stream) ?? throw new UnknownImageFormatException($"{Path.GetFileName(path)}: unknown image format");
         if (SizeProblem(info) is { } why) throw new InvalidImageContentException(why);
         stream.Position = 0;

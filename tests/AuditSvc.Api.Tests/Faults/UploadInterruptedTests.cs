@@ -36,8 +36,8 @@ public sealed class UploadInterruptedTests
         using var form = new MultipartFormDataContent { { new StringContent("half"), "name" }, { body, part, fileName } };
         var upload = client.PostAsync(route, form);
 
-        var scratch = Path.Combine(svc.DataRoot, "scratch");
-        await ServiceUnderTest.PollAsync(() => Task.FromResult(Directory.Exists(scratch) && Directory.GetFiles(scratch).Any(f => new FileInfo(f).Length > 0)),
+        var scratch = Path.Combine(svc.DataRoot, "scratch"); // the process's own folder is inside it
+        await ServiceUnderTest.PollAsync(() => Task.FromResult(Directory.Exists(scratch) && Directory.GetFiles(scratch, "*", SearchOption.AllDirectories).Any(f => new FileInfo(f).Length > 0)),
             started => started, "the upload to reach the server's scratch file");
         using (var grace = new CancellationTokenSource(TimeSpan.FromSeconds(2)))
             await svc.App.StopAsync(grace.Token); // Kestrel waits for the request, then aborts it

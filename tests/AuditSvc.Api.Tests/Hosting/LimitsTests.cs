@@ -1,9 +1,10 @@
 using System.Net;
+using AuditSvc.Api.Tests.Ui;
 using AuditSvc.Data.Tests;
 
 namespace AuditSvc.Api.Tests.Hosting;
 
-/// <summary>Per-key rate limits (429 with Retry-After) and the upload size limit (413), with small limits set for the test.</summary>
+/// <summary>Per-key rate limits on /api and /ui (429 with Retry-After) and the upload size limit (413), with small limits set for the test.</summary>
 public class LimitsTests
 {
     [PgFact]
@@ -23,6 +24,49 @@ public class LimitsTests
         Assert.All(limited, r => Assert.True(r.Headers.RetryAfter?.Delta is { TotalSeconds: >= 1 }, "Retry-After missing"));
         Assert.Equal("application/problem+json", limited[0].Content.Headers.ContentType!.MediaType);
         Assert.Equal(HttpStatusCode.OK, (await quiet.GetAsync("/api/models")).StatusCode);
+    }
+
+    [PgFact]
+    public async Task Pages_PastTheSessionsBurst_Get429WithRetryAfterAndOtherSessionsAreServed()
+    {
+        await using var svc = await ServiceUnderTest.StartAsync(workers: 0,
+            settings: new Dictionary<string, string?> { ["AUDITSVC_RATE_PER_SECOND"] = "1", ["AUDITSVC_RATE_BURST"] = "5" });
+        var (busyKey, _) = await BrowserSession.KeyAsync(svc, "team-a", "busy");
+        var (quietKey, _) = await BrowserSession.KeyAsync(svc, "team-a", "quiet");
+        using var busy = new BrowserSession(svc);
+        using var quiet = new BrowserSession(svc);
+        (await busy.LoginAsync(busyKey)).Dispose();
+        (await quiet.LoginAsync(quietKey)).Dispose();
+
+        var responses = new List<HttpResponseMessage>();
+        for (int i = 0; i < 12; i++) responses.Add(await busy.Client.GetAsync("/ui/audits"));
+
+        var limited = responses.Where(r => r.StatusCode == HttpStatusCode.TooManyRequests).ToList();
+        Assert.NotEmpty(limited);
+        Assert.InRange(responses.Count(r => r.StatusCode == HttpStatusCode.OK), 5, 7);
+        Assert.All(limited, r => Assert.True(r.Headers.RetryAfter?.Delta is { TotalSeconds: >= 1 }, "Retry-After missing"));
+        Assert.Equal("text/html", limited[0].Content.Headers.ContentType!.MediaType);
+        Assert.Contains("Too many requests", await limited[0].Content.ReadAsStringAsync(), StringComparison.Ordinal);
+        // Another session is served; so is the same key on /api, whose budget is its own.
+        Assert.Equal(HttpStatusCode.OK, (await quiet.Client.GetAsync("/ui/audits")).StatusCode);
+        using var api = new HttpClient { BaseAddress = svc.Address };
+        api.DefaultRequestHeaders.Authorization = new("Bearer", busyKey);
+        Assert.Equal(HttpStatusCode.OK, (await api.GetAsync("/api/models")).StatusCode);
+        foreach (var r in responses) r.Dispose();
+    }
+
+    [PgFact]
+    public async Task SignInPage_PastTheAddressesBurst_Gets429()
+    {
+        await using var svc = await ServiceUnderTest.StartAsync(workers: 0,
+            settings: new Dictionary<string, string?> { ["AUDITSVC_RATE_PER_SECOND"] = "1", ["AUDITSVC_RATE_BURST"] = "5" });
+        using var anonymous = new HttpClient { BaseAddress = svc.Address };
+
+        var statuses = new List<HttpStatusCode>();
+        for (int i = 0; i < 12; i++) statuses.Add((await anonymous.GetAsync("/ui/login")).StatusCode);
+
+        Assert.Contains(HttpStatusCode.TooManyRequests, statuses);
+        Assert.InRange(statuses.Count(s => s == HttpStatusCode.OK), 5, 7);
     }
 
     [PgFact]
