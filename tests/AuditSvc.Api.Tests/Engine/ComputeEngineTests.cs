@@ -56,8 +56,9 @@ public sealed class ComputeEngineTests
         {
             var manifest = DemoSetGenerator.Write(Path.Combine(root, "set"), new DemoSetOptions(300, Agreement, Seed));
             var model = Path.Combine(RepoRoot(), "seed-demo", "models", "fruit-cue.onnx");
-            var engine = new AuditSvc.Api.Engine.ComputeEngine(new AuditSvc.Api.Artifacts.ArtifactStore(
-                Microsoft.Extensions.Options.Options.Create(new AuditSvc.Api.Hosting.ServiceOptions { DataRoot = root })));
+            var options = Microsoft.Extensions.Options.Options.Create(new AuditSvc.Api.Hosting.ServiceOptions { DataRoot = root });
+            using var scratch = new AuditSvc.Api.Artifacts.ScratchSpace(options);
+            var engine = new AuditSvc.Api.Engine.ComputeEngine(new AuditSvc.Api.Artifacts.ArtifactStore(options, scratch));
             var items = await engine.IntakeImageSetAsync(Path.GetDirectoryName(manifest)!, ["sound", "spotted", "mouldy"], default);
             var inputs = new AuditSvc.Api.Engine.AuditInputs(Guid.NewGuid(), model, "{}", Path.GetDirectoryName(manifest)!, items, "{}", 1,
                 Path.Combine(root, "work"));

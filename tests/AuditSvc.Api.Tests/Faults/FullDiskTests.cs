@@ -113,6 +113,6 @@ public sealed class FullDiskTests(ITestOutputHelper output)
 
         public Task<byte[]> RunChunkAsync(AuditInputs inputs, int start, int count, CancellationToken ct) => _inner.RunChunkAsync(inputs, start, count, ct);
         public Task<string> RenderReportAsync(AuditInputs inputs, string auditJson, CancellationToken ct) => _inner.RenderReportAsync(inputs, auditJson, ct);
-        public Task<AuditOutcome> FinishAsync(AuditInputs inputs, IReadOnlyList<byte[]> chunks, CancellationToken ct) => _inner.FinishAsync(inputs, chunks, ct);
+        public Task<AuditOutcome> FinishAsync(AuditInputs inputs, IChunkResults chunks, CancellationToken ct) => _inner.FinishAsync(inputs, chunks, ct);
     }
 }
