@@ -73,6 +73,9 @@ public static class AuditBench
     {
         var probe = ModelIntake.Load(o.ModelPath);
         var classes = probe.Plan.ClassNames.Take(Math.Min(3, probe.Plan.ClassCount)).ToArray();
+        // Every output named, as a user auditing a wide model on a few of its classes gives --labels: the set's
+        // label list is then the model's, and a cue may push decisions toward any output.
+        var load = new ModelLoadOptions(Recipe: probe.Plan.Recipe.ClassNames is null ? new RecipeOverrides(ClassNames: probe.Plan.ClassNames) : null);
         var options = new PassOptions { BatchSize = o.BatchSize, InferenceThreads = o.Threads, DecodeThreads = o.Threads };
         var chosen = options.Resolve(3 * probe.Plan.Recipe.Height * probe.Plan.Recipe.Width);
         var arch = o.TorchScript is null ? null : TorchBaseline.ArchitectureOf(o.ModelPath);
@@ -91,7 +94,7 @@ public static class AuditBench
             var outDir = Path.Combine(work, $"audit-{n}");
             double loadBefore = LoadAverage();
             log($"audit of {n} images ({Path.GetFileName(o.ModelPath)}, batch {chosen.BatchSize}, {chosen.InferenceThreads} threads), load {loadBefore:0.0}");
-            var (seconds, phases, scored, findings) = Audit(o.ModelPath, manifest, outDir, options, ct);
+            var (seconds, phases, scored, findings) = Audit(o.ModelPath, load, manifest, outDir, options, ct);
             var row = new AuditBenchRow(n, seconds, phases, scored, findings, loadBefore, LoadAverage());
             log(string.Create(CultureInfo.InvariantCulture, $"audit of {n}: {seconds:0.0} s ({n / seconds:0.0} images/s); intake {phases.Intake ?? 0:0.0}, pass {phases.Pass:0.0}, " +
                 $"analysis {phases.Analysis:0.0}, interventions {phases.Interventions:0.0}, report {phases.Report ?? 0:0.0} s"));
@@ -121,13 +124,13 @@ public static class AuditBench
     }
 
     /// <summary>The audit as `auditsvc audit` runs it, timed from model intake to the last file written.</summary>
-    private static (double Seconds, PhaseTimes Phases, int Scored, int Findings) Audit(string model, string manifest, string outDir, PassOptions options,
-        CancellationToken ct)
+    private static (double Seconds, PhaseTimes Phases, int Scored, int Findings) Audit(string model, ModelLoadOptions load, string manifest, string outDir,
+        PassOptions options, CancellationToken ct)
     {
         Directory.CreateDirectory(outDir);
         var clock = Stopwatch.StartNew();
         var phases = new PhaseClock();
-        var request = new AuditRequest(model, manifest, new ModelLoadOptions(), new AuditPolicy(), options, Path.Combine(outDir, ".work"));
+        var request = new AuditRequest(model, manifest, load, new AuditPolicy(), options, Path.Combine(outDir, ".work"));
         var run = AuditPipeline.Run(request, null, phases.Wrap(), ct);
         var drawing = Stopwatch.StartNew();
         var exemplars = new Reporting.ExemplarImages(item => run.Table.Items[item].Path, run.Model.Plan.Recipe);
