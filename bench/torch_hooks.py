@@ -4,9 +4,12 @@ the pass reads by default, and the same job per image: decode, scale the whole i
 normalise, run, take every unit's spatial maximum and its position, keep the scores matrix (float16) and each
 unit's top-n. Weights are random: only the speed is compared. Prints one JSON object on the last line.
 
-Usage: /usr/bin/python3 bench/torch_hooks.py --arch resnet18|fruit --images DIR --threads T --batch B
+Usage: /usr/bin/python3 bench/torch_hooks.py --arch resnet18|fruit --images DIR [--manifest CSV] --threads T --batch B
+With --manifest, the images are the `image` column of that CSV (paths relative to it), in its order; else every
+.jpg and .png of DIR.
 """
 import argparse
+import csv
 import json
 import math
 import os
@@ -102,6 +105,7 @@ def main():
     ap.add_argument("--workers", type=int, default=1,
                     help="DataLoader decode processes (1 measured best on 2 cores: 2 oversubscribe, 0 serialises decode)")
     ap.add_argument("--size", default="", help="photo size, for the record only")
+    ap.add_argument("--manifest", default="", help="CSV whose `image` column lists the images (relative to it)")
     a = ap.parse_args()
     torch.set_num_threads(a.threads)
     # Random weights can drive activations into subnormal floats, which CPUs process many times slower; trained
@@ -109,7 +113,12 @@ def main():
     torch.set_flush_denormal(True)
     net, size, modules = build(a.arch)
     net.eval()
-    files = sorted(os.path.join(a.images, f) for f in os.listdir(a.images) if f.endswith((".jpg", ".png")))
+    if a.manifest:
+        with open(a.manifest, newline="") as f:
+            root = os.path.dirname(os.path.abspath(a.manifest))
+            files = [os.path.join(root, row["image"]) for row in csv.DictReader(f)]
+    else:
+        files = sorted(os.path.join(a.images, f) for f in os.listdir(a.images) if f.endswith((".jpg", ".png")))
     n = len(files)
     top_n = min(250, max(20, math.ceil(0.02 * n)))
     state = {"offset": 0, "batch": 0}

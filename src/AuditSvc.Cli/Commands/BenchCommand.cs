@@ -29,9 +29,13 @@ internal static class BenchCommand
         var spinning = new Option<bool?>("--spinning") { Description = "Let ONNX Runtime threads spin between kernels (default: chosen automatically, off)" };
         var work = new Option<string?>("--work") { Description = "Folder for the generated photos, kept after the run (default: a temporary folder, removed)" };
         var minSeconds = new Option<double>("--min-seconds") { Description = "Each timed phase repeats the set until this many seconds have passed", DefaultValueFactory = _ => 1.5 };
+        var auditSizes = new Option<string?>("--audit-sizes")
+        {
+            Description = "Instead: whole audits (intake to report) of these set sizes, comma-separated (e.g. 400,4000), each against --torch on the same photos",
+        };
         var cmd = new Command("bench", "Throughput and memory of the activation pass against raw inference, measured in one run")
         {
-            model, images, batch, threads, decodeThreads, spinning, size, json, factor, rounds, torch, work, minSeconds,
+            model, images, batch, threads, decodeThreads, spinning, size, json, factor, rounds, torch, work, minSeconds, auditSizes,
         };
         cmd.SetAction((parse, ct) =>
         {
@@ -41,6 +45,15 @@ internal static class BenchCommand
             var path = parse.GetValue(model) ?? (File.Exists(DefaultModel) ? DefaultModel : DemoModel);
             if (!File.Exists(path)) throw new AuditInputException(path, "model file not found");
             bool asJson = parse.GetValue(json);
+            if (parse.GetValue(auditSizes) is { } sizes)
+            {
+                var audits = new AuditBenchOptions(path, ParseSizes(sizes), parse.GetValue(batch), parse.GetValue(threads), w ?? 500, h ?? 375,
+                    parse.GetValue(torch), parse.GetValue(work));
+                var report = AuditBench.Run(audits, line => Console.Error.WriteLine(line), ct);
+                Console.Out.Write(ToText(report));
+                if (asJson) Console.Out.WriteLine(ToJson(report));
+                return Task.FromResult(ExitCodes.Pass);
+            }
             var options = new BenchOptions(path, n, parse.GetValue(batch), parse.GetValue(threads), w ?? 500, h ?? 375,
                 Math.Max(1, parse.GetValue(factor)), Math.Max(1, parse.GetValue(rounds)), TorchScript: parse.GetValue(torch),
                 DecodeThreads: parse.GetValue(decodeThreads), Spinning: parse.GetValue(spinning), WorkDirectory: parse.GetValue(work),
@@ -73,6 +86,57 @@ internal static class BenchCommand
         w.WriteLine($"per image    {r.ProbabilityBytesPerImage} bytes of probabilities, prediction and flag");
         return w.ToString();
     }
+
+    /// <summary>Most set sizes one run takes, and the largest size: a bench, not a scale run.</summary>
+    internal const int MaxAuditSizes = 6, MaxAuditImages = 50_000;
+
+    internal static IReadOnlyList<int> ParseSizes(string text)
+    {
+        var parts = text.Split(',', StringSplitOptions.TrimEntries | StringSplitOptions.RemoveEmptyEntries);
+        if (parts.Length is 0 or > MaxAuditSizes) throw new AuditInputException("--audit-sizes", $"give 1 to {MaxAuditSizes} set sizes, comma-separated");
+        var sizes = new List<int>();
+        foreach (var p in parts)
+        {
+            if (!int.TryParse(p, NumberStyles.None, CultureInfo.InvariantCulture, out int n) || n is < 1 or > MaxAuditImages)
+                throw new AuditInputException("--audit-sizes", $"'{p}' is not a set size from 1 to {MaxAuditImages}");
+            sizes.Add(n);
+        }
+        return sizes;
+    }
+
+    internal static string ToText(AuditBenchResult r)
+    {
+        var w = new StringWriter(CultureInfo.InvariantCulture);
+        w.WriteLine($"machine      {r.Machine}");
+        w.WriteLine($"model        {r.Model}: batch {r.BatchSize}, {r.InferenceThreads} inference / {r.DecodeThreads} decode threads, photos {r.PhotoSize}");
+        w.WriteLine("whole audit  model intake to report.html and audit.json; eager script: its timed loop (and its whole process)");
+        foreach (var row in r.Rows)
+        {
+            var p = row.Phases;
+            w.WriteLine($"N = {row.Images,-7} audit {row.AuditSeconds,7:0.0} s ({row.AuditImagesPerSecond:0.0} images/s; intake {p.Intake ?? 0:0.0}, pass {p.Pass:0.0}, " +
+                $"analysis {p.Analysis:0.0}, interventions {p.Interventions:0.0}, report {p.Report ?? 0:0.0}; {row.Scored} scored, {row.Findings} findings; load {row.LoadBefore:0.0} to {row.LoadAfter:0.0})");
+            if (row.ScriptLoopSeconds is { } loop)
+                w.WriteLine($"             script {loop,6:0.0} s ({row.ScriptProcessSeconds:0.0} s as a process)  audit/script {row.VsScriptLoop:0.00} ({row.VsScriptProcess:0.00} against the process)");
+            else if (row.ScriptNote is not null) w.WriteLine($"             eager script not run: {row.ScriptNote}");
+        }
+        return w.ToString();
+    }
+
+    internal static string ToJson(AuditBenchResult r) => JsonSerializer.Serialize(new Dictionary<string, object?>
+    {
+        ["model"] = r.Model, ["machine"] = r.Machine, ["batch_size"] = r.BatchSize, ["inference_threads"] = r.InferenceThreads,
+        ["decode_threads"] = r.DecodeThreads, ["photo_size"] = r.PhotoSize,
+        ["audits"] = r.Rows.Select(row => new Dictionary<string, object?>
+        {
+            ["images"] = row.Images, ["audit_seconds"] = Round(row.AuditSeconds), ["intake_seconds"] = row.Phases.Intake is { } i ? Round(i) : null,
+            ["pass_seconds"] = Round(row.Phases.Pass), ["analysis_seconds"] = Round(row.Phases.Analysis),
+            ["interventions_seconds"] = Round(row.Phases.Interventions), ["report_seconds"] = row.Phases.Report is { } rep ? Round(rep) : null,
+            ["scored"] = row.Scored, ["findings"] = row.Findings,
+            ["script_loop_seconds"] = row.ScriptLoopSeconds is { } l ? Round(l) : null, ["script_process_seconds"] = row.ScriptProcessSeconds is { } ps ? Round(ps) : null,
+            ["audit_vs_script"] = row.VsScriptLoop is { } v ? Round(v) : null, ["audit_vs_script_process"] = row.VsScriptProcess is { } vp ? Round(vp) : null,
+            ["load_before"] = Round(row.LoadBefore), ["load_after"] = Round(row.LoadAfter),
+        }).ToList(),
+    });
 
     private static string Mb(long bytes) => string.Create(CultureInfo.InvariantCulture, $"{bytes / 1048576.0:0} MB");
 

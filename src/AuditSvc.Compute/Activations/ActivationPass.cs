@@ -1,5 +1,4 @@
 using System.Diagnostics;
-using System.Threading.Channels;
 using AuditSvc.Compute.Imaging;
 using AuditSvc.Core.Activations;
 using AuditSvc.Core.ImageSets;
@@ -12,8 +11,8 @@ namespace AuditSvc.Compute.Activations;
 public readonly record struct PassProgress(int Done, int Total, double ImagesPerSecond);
 
 /// <summary>
-/// Pushes an image set through the model: decode and preprocess (on their own threads, a bounded queue ahead of
-/// inference), run ONNX Runtime, and reduce every read layer to unit scores and peaks on the fly. Keeps the
+/// Pushes an image set through the model: decode and preprocess (on their own threads, image by image, a bounded
+/// number of images ahead of inference), run ONNX Runtime, and reduce every read layer to unit scores and peaks on the fly. Keeps the
 /// scores matrix, each unit's top-n and every image's prediction; no activation map outlives its batch.
 /// </summary>
 public sealed class ActivationPass : IDisposable
@@ -64,53 +63,24 @@ public sealed class ActivationPass : IDisposable
         int n = table.Items.Count;
         var sink = NewCollector(n, item => table.Items[item].RelativePath);
         int b = Options.BatchSize, slot = _pre.SlotLength;
-        // Two decoded batches wait at most: enough to keep inference fed, bounded so memory does not grow with N.
-        var queue = Channel.CreateBounded<PassBatch>(new BoundedChannelOptions(2) { SingleReader = true, SingleWriter = true });
-        var free = Channel.CreateUnbounded<PassBatch>();
-        for (int i = 0; i < 4; i++) free.Writer.TryWrite(new PassBatch(b, slot, _units));
         var clock = Stopwatch.StartNew();
-        using var cts = CancellationTokenSource.CreateLinkedTokenSource(ct);
-        var producer = Task.Run(async () =>
-        {
-            try
+        // Decoders work image by image, ahead into later batches, up to a bound in images (see DecodeAhead).
+        using (var ahead = new DecodeAhead(count, b, Options.DecodeThreads, Options.DecodeAheadImages, () => new PassBatch(b, slot, _units),
+            (j, batch, i) =>
             {
-                for (int s = start; s < start + count; s += b)
-                {
-                    var batch = await free.Reader.ReadAsync(cts.Token);
-                    batch.Count = Math.Min(b, start + count - s);
-                    int s0 = s;
-                    Parallel.For(0, batch.Count, new ParallelOptions { MaxDegreeOfParallelism = Options.DecodeThreads, CancellationToken = cts.Token }, i =>
-                    {
-                        var item = table.Items[s0 + i];
-                        batch.Items[i] = item.Index;
-                        Decode(item.Path, batch, i);
-                    });
-                    await queue.Writer.WriteAsync(batch, cts.Token);
-                }
-                queue.Writer.Complete();
-            }
-            catch (Exception e)
-            {
-                queue.Writer.Complete(e);
-            }
-        }, cts.Token);
-
-        int done = 0;
-        try
+                var item = table.Items[start + j];
+                batch.Items[i] = item.Index;
+                Decode(item.Path, batch, i);
+            }, ct))
         {
-            foreach (var batch in ReadAll(queue.Reader, cts.Token))
+            int done = 0;
+            foreach (var batch in ahead.Batches())
             {
                 InferAndCollect(batch, batch.Input.AsMemory(0, batch.Count * slot), sink);
                 done += batch.Count;
                 sink.Store.SpillIfNeeded(start + done);
                 progress?.Report(new PassProgress(done, count, done / Math.Max(1e-9, clock.Elapsed.TotalSeconds)));
-                free.Writer.TryWrite(batch);
             }
-        }
-        finally
-        {
-            cts.Cancel();
-            try { producer.Wait(CancellationToken.None); } catch (AggregateException) { }
         }
         ct.ThrowIfCancellationRequested();
         return sink.Result(_layers);
@@ -172,12 +142,6 @@ public sealed class ActivationPass : IDisposable
         else
             _runner.Run(input, batch.Count, (cls, layers) => Reduce(batch, 0, batch.Count, cls, layers, probs, Options.InferenceThreads > 1));
         sink.Collect(batch);
-    }
-
-    private static IEnumerable<PassBatch> ReadAll(ChannelReader<PassBatch> reader, CancellationToken ct)
-    {
-        while (reader.WaitToReadAsync(ct).AsTask().GetAwaiter().GetResult())
-            while (reader.TryRead(out var batch)) yield return batch;
     }
 
     /// <summary>Unit scores and peaks of images [offset, offset + count) of a batch, and their class probabilities.</summary>

@@ -36,11 +36,18 @@ internal static class LayerReduce
         });
     }
 
-    /// <summary>Copies in-graph maxima [count, C] and first arg-maxima [count, C] (int64) into the batch's rows.</summary>
+    /// <summary>
+    /// Copies in-graph maxima and first arg-maxima (int64) of [count, C] planes into the batch's rows. Positions of
+    /// rank 3 ([count, C, 1], ArgMax) are within the plane; of rank 4 ([count, C, 1, 1], MaxPool's Indices) they
+    /// are flattened over the whole [count, C, H, W] tensor, and an index outside its plane (a plane with no
+    /// number in it) is read as position 0.
+    /// </summary>
     public static void FromGraph(LayerSlice slice, OrtValue max, OrtValue argMax, int count, int offset, int units,
         float[] scores, short[] peakY, short[] peakX)
     {
         int c = slice.Layer.Channels, w = slice.Layer.Width;
+        long plane = (long)slice.Layer.Height * w;
+        bool flattened = argMax.GetTensorTypeAndShape().Shape.Length == 4;
         var m = max.GetTensorDataAsSpan<float>();
         var a = argMax.GetTensorDataAsSpan<long>();
         for (int i = 0; i < count; i++)
@@ -49,7 +56,12 @@ internal static class LayerReduce
             m.Slice(i * c, c).CopyTo(scores.AsSpan(at, c));
             for (int ch = 0; ch < c; ch++)
             {
-                int index = (int)a[i * c + ch];
+                long index = a[i * c + ch];
+                if (flattened)
+                {
+                    index -= (long)(i * c + ch) * plane;
+                    if (index < 0 || index >= plane) index = 0;
+                }
                 peakY[at + ch] = (short)(index / w);
                 peakX[at + ch] = (short)(index % w);
             }

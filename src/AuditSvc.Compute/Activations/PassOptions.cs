@@ -11,6 +11,12 @@ public sealed record PassOptions
     /// <summary>Threads decoding and preprocessing images while inference runs.</summary>
     public int DecodeThreads { get; init; }
 
+    /// <summary>
+    /// Most images decoded ahead of inference (decoded or being decoded, not yet run); 0 = choose. Counted in
+    /// images, not batches, so a small batch does not stop the decoders from running ahead into the next ones.
+    /// </summary>
+    public int DecodeAheadImages { get; init; }
+
     /// <summary>Exemplars kept per unit; 0 = clamp(ceil(2% of images), 20, 250).</summary>
     public int TopN { get; init; }
 
@@ -38,17 +44,23 @@ public sealed record PassOptions
     /// Concrete settings on a machine with <paramref name="cores"/> cores. Batch: about 8 MB of input per run
     /// (a power of two, 1..64), enough to amortise a run's fixed cost without pushing activations out of cache
     /// for large inputs. Inference takes every core (ONNX Runtime's kernels scale with them) and so does decoding:
-    /// the bounded queue stops decoders running ahead, and with spinning off an idle side yields its core.
+    /// the bound on images decoded ahead stops decoders running away, and with spinning off an idle side yields its
+    /// core. Decode ahead: two batches, and at least four images per decode thread (so each decoder has work while
+    /// a batch of one or two runs) as long as those take no more than 64 MB of input.
     /// </summary>
     public PassOptions Resolve(int slotFloats, int cores)
     {
         cores = Math.Max(1, cores);
         int batch = BatchSize > 0 ? BatchSize : Math.Clamp((int)BitOperations.RoundDownPowerOf2((uint)Math.Max(1, (2 << 20) / Math.Max(1, slotFloats))), 1, 64);
+        int decode = DecodeThreads > 0 ? DecodeThreads : cores;
+        long slotBytes = Math.Max(1L, slotFloats) * sizeof(float);
+        int perThread = (int)Math.Clamp((64L << 20) / slotBytes, 1, 4L * decode);
         return this with
         {
             BatchSize = batch,
             InferenceThreads = InferenceThreads > 0 ? InferenceThreads : cores,
-            DecodeThreads = DecodeThreads > 0 ? DecodeThreads : cores,
+            DecodeThreads = decode,
+            DecodeAheadImages = DecodeAheadImages > 0 ? DecodeAheadImages : Math.Max(2 * batch, perThread),
             Spinning = Spinning ?? false,
             ReduceInGraph = ReduceInGraph ?? true,
         };

@@ -6,12 +6,13 @@ namespace AuditSvc.Compute.Activations;
 
 /// <summary>
 /// Moves the channel maxima into the graph: every 4-D read layer [N,C,H,W] is replaced as an output by its
-/// maximum over H×W ([N,C], float) and the first position holding it ([N,C], int64), computed by ONNX Runtime's
-/// own ReduceMax and ArgMax. The activation maps then stay inside the runtime, whose memory planner reuses their
+/// maximum over H×W (float) and the first position holding it (int64), both from one MaxPool over the whole plane
+/// with its Indices output (or, before opset 8, from ONNX Runtime's ArgMax and ReduceMax). The activation maps then stay inside the runtime, whose memory planner reuses their
 /// buffers as it does for the plain model, instead of being handed out in full for every batch.
 /// 2-D layers stay as they are (their value is the score). <see cref="ChannelMax"/> is the reference it is tested against;
-/// they agree on finite maps (first index on ties); on a map holding NaN the runtime's ArgMax rules apply instead of
-/// ChannelMax's "NaN is lowest", which only matters for a model that is already broken.
+/// they agree on finite maps (first index on ties, row by row). MaxPool skips NaN as ChannelMax does; a plane with no
+/// number above float's lowest (all NaN or −∞) gets position 0 and a score that is clamped like −∞ when stored
+/// (ChannelMax calls an all-NaN plane NaN), which only matters for a model that is already broken.
 /// </summary>
 public static class ReducedGraph
 {
@@ -19,7 +20,9 @@ public static class ReducedGraph
     /// A copy of <paramref name="exposed"/> (outputs: class output, then <paramref name="read"/> in order) whose
     /// outputs become: class output, then per read layer either [max, argmax] (4-D) or the layer itself (2-D).
     /// </summary>
-    public static byte[] Rewrite(byte[] exposed, IReadOnlyList<LayerInfo> read)
+    /// <param name="fusePeaks">Maximum and position from one MaxPool (opset 8 and later, plane size known); false:
+    /// ArgMax, then GatherElements (opset 11 and later) or ReduceMax. Both give the same values and positions.</param>
+    public static byte[] Rewrite(byte[] exposed, IReadOnlyList<LayerInfo> read, bool fusePeaks = true)
     {
         var model = ModelProto.Parser.ParseFrom(exposed);
         var graph = model.Graph;
@@ -35,7 +38,20 @@ public static class ReducedGraph
                 graph.Output.Add(outputs[l + 1]);
                 continue;
             }
-            string p = $"auditsvc_reduce_{l}_", flat = p + "flat", max = p + "max", arg = p + "argmax", shape = p + "shape";
+            string p = $"auditsvc_reduce_{l}_", max = p + "max", arg = p + "argmax";
+            if (fusePeaks && opset >= 8 && layer.Height > 0 && layer.Width > 0)
+            {
+                // One reduction for both: MaxPool over the whole plane with its Indices output reads each map once
+                // (ArgMax then GatherElements or ReduceMax read it again). Indices are flattened over [N, C, H, W];
+                // LayerReduce.FromGraph makes them per plane, and knows them by their rank-4 shape.
+                var pool = Node("MaxPool", [layer.ReadName], [max, arg], p + "maxpool");
+                pool.Attribute.Add(IntAttr("kernel_shape", [layer.Height, layer.Width]));
+                graph.Node.Add(pool);
+                graph.Output.Add(Info(max, TensorProto.Types.DataType.Float, layer.Channels, 1, 1));
+                graph.Output.Add(Info(arg, TensorProto.Types.DataType.Int64, layer.Channels, 1, 1));
+                continue;
+            }
+            string flat = p + "flat", shape = p + "shape";
             graph.Initializer.Add(Int64Tensor(shape, [0, layer.Channels, -1]));
             graph.Node.Add(Node("Reshape", [layer.ReadName, shape], [flat], p + "reshape"));
             var argMax = Node("ArgMax", [flat], [arg], p + "argmax_node");
@@ -57,8 +73,8 @@ public static class ReducedGraph
                 reduce.Attribute.Add(IntAttr("keepdims", [1]));
                 graph.Node.Add(reduce);
             }
-            graph.Output.Add(Info(max, TensorProto.Types.DataType.Float, layer.Channels));
-            graph.Output.Add(Info(arg, TensorProto.Types.DataType.Int64, layer.Channels));
+            graph.Output.Add(Info(max, TensorProto.Types.DataType.Float, layer.Channels, 1));
+            graph.Output.Add(Info(arg, TensorProto.Types.DataType.Int64, layer.Channels, 1));
         }
         return model.ToByteArray();
     }
@@ -80,7 +96,7 @@ public static class ReducedGraph
     private static AttributeProto IntAttr(string name, long[] values)
     {
         var a = new AttributeProto { Name = name };
-        if (name is "axes") { a.Type = AttributeProto.Types.AttributeType.Ints; a.Ints.AddRange(values); }
+        if (name is "axes" or "kernel_shape") { a.Type = AttributeProto.Types.AttributeType.Ints; a.Ints.AddRange(values); }
         else { a.Type = AttributeProto.Types.AttributeType.Int; a.I = values[0]; }
         return a;
     }
@@ -93,12 +109,12 @@ public static class ReducedGraph
         return t;
     }
 
-    private static ValueInfoProto Info(string name, TensorProto.Types.DataType type, int channels)
+    private static ValueInfoProto Info(string name, TensorProto.Types.DataType type, int channels, params int[] ones)
     {
         var shape = new TensorShapeProto();
         shape.Dim.Add(new TensorShapeProto.Types.Dimension { DimParam = "N" });
         shape.Dim.Add(new TensorShapeProto.Types.Dimension { DimValue = channels });
-        shape.Dim.Add(new TensorShapeProto.Types.Dimension { DimValue = 1 });
+        foreach (var one in ones) shape.Dim.Add(new TensorShapeProto.Types.Dimension { DimValue = one });
         return new ValueInfoProto
         {
             Name = name,

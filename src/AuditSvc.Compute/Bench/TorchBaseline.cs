@@ -24,6 +24,17 @@ public static class TorchBaseline
     public static (double? ImagesPerSecond, string Note) Run(string python, string script, string arch, string imagesDir, int width, int height,
         int threads, int batch, CancellationToken ct)
     {
+        var r = RunDetailed(python, script, arch, imagesDir, null, width, height, threads, batch, ct);
+        return (r.ImagesPerSecond, r.Note);
+    }
+
+    /// <summary>
+    /// Runs the script on every image of <paramref name="imagesDir"/>, or on the rows of <paramref name="manifest"/> when
+    /// given; its images per second and the seconds of its timed loop, or nulls with the reason when it could not run.
+    /// </summary>
+    public static (double? ImagesPerSecond, double? Seconds, string Note) RunDetailed(string python, string script, string arch, string imagesDir,
+        string? manifest, int width, int height, int threads, int batch, CancellationToken ct)
+    {
         var start = new ProcessStartInfo(python)
         {
             RedirectStandardOutput = true,
@@ -33,6 +44,11 @@ public static class TorchBaseline
         foreach (var a in new[] { script, "--arch", arch, "--images", imagesDir, "--size", $"{width}x{height}",
                      "--threads", threads.ToString(CultureInfo.InvariantCulture), "--batch", batch.ToString(CultureInfo.InvariantCulture) })
             start.ArgumentList.Add(a);
+        if (manifest is not null)
+        {
+            start.ArgumentList.Add("--manifest");
+            start.ArgumentList.Add(manifest);
+        }
         try
         {
             using var process = Process.Start(start)!;
@@ -41,13 +57,14 @@ public static class TorchBaseline
             process.WaitForExitAsync(ct).GetAwaiter().GetResult();
             var last = stdout.Split('\n', StringSplitOptions.RemoveEmptyEntries | StringSplitOptions.TrimEntries).LastOrDefault();
             if (process.ExitCode != 0 || last is null)
-                return (null, $"{script} exited {process.ExitCode}: {stderr.GetAwaiter().GetResult().Split('\n').LastOrDefault(l => l.Length > 0)}");
+                return (null, null, $"{script} exited {process.ExitCode}: {stderr.GetAwaiter().GetResult().Split('\n').LastOrDefault(l => l.Length > 0)}");
             using var doc = JsonDocument.Parse(last);
-            return (doc.RootElement.GetProperty("images_per_second").GetDouble(), $"{python} {Path.GetFileName(script)} --arch {arch}");
+            return (doc.RootElement.GetProperty("images_per_second").GetDouble(), doc.RootElement.GetProperty("seconds").GetDouble(),
+                $"{python} {Path.GetFileName(script)} --arch {arch}");
         }
         catch (Exception e) when (e is System.ComponentModel.Win32Exception or JsonException or KeyNotFoundException or InvalidOperationException)
         {
-            return (null, $"{script} could not run: {e.Message}");
+            return (null, null, $"{script} could not run: {e.Message}");
         }
     }
 }

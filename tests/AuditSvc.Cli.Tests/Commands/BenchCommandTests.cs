@@ -38,4 +38,38 @@ public class BenchCommandTests
         Assert.Equal(2, status);
         Assert.Contains("/nonexistent/model.onnx", stderr, StringComparison.Ordinal);
     }
+
+    [Fact]
+    public void Bench_AuditSizes_PrintsOneWholeAuditPerSizeAgainstTheScript()
+    {
+        var script = Path.Combine(Path.GetTempPath(), "auditsvc-no-script-" + Guid.NewGuid().ToString("N") + ".py");
+        var (status, stdout, stderr) = CliProcess.Run("bench", "--model", Demo, "--audit-sizes", "24,36", "--batch", "4", "--threads", "1",
+            "--size", "80x60", "--torch", script, "--json");
+        Assert.True(status == 0, stderr);
+        var last = stdout.Split('\n', StringSplitOptions.RemoveEmptyEntries)[^1];
+        using var doc = JsonDocument.Parse(last);
+        var audits = doc.RootElement.GetProperty("audits");
+        Assert.Equal([24, 36], audits.EnumerateArray().Select(a => a.GetProperty("images").GetInt32()));
+        foreach (var a in audits.EnumerateArray())
+        {
+            Assert.True(a.GetProperty("audit_seconds").GetDouble() > 0);
+            Assert.True(a.GetProperty("pass_seconds").GetDouble() > 0);
+            Assert.Equal(a.GetProperty("images").GetInt32(), a.GetProperty("scored").GetInt32());
+            // The script does not exist here: the audit is still measured, and the row says the script did not run.
+            Assert.Equal(JsonValueKind.Null, a.GetProperty("audit_vs_script").ValueKind);
+        }
+        Assert.Contains("eager script not run", stdout, StringComparison.Ordinal);
+    }
+
+    [Theory]
+    [InlineData("0")]
+    [InlineData("400,x")]
+    [InlineData("50001")]
+    [InlineData("1,2,3,4,5,6,7")]
+    public void Bench_BadAuditSizes_ExitTwoNamingTheOption(string sizes)
+    {
+        var (status, _, stderr) = CliProcess.Run("bench", "--model", Demo, "--audit-sizes", sizes);
+        Assert.Equal(2, status);
+        Assert.Contains("--audit-sizes", stderr, StringComparison.Ordinal);
+    }
 }
