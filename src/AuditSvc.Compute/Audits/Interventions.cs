@@ -76,7 +76,7 @@ public static class Interventions
         var region = RegionOf(runs, table, labels, values, target.Value, h, w);
         var attr = table.Attributes[target.Attribute];
         string cue = $"{attr.Name}={attr.Values[target.Value]}";
-        string toward = target.CueClass >= 0 ? $"moved to {table.Labels[target.CueClass]}" : "changed prediction";
+        string toward = target.CueClass >= 0 ? $"moved to {table.ClassName(target.CueClass)}" : "changed prediction";
         int before = runs.Runs;
         var measures = new List<Measure?>();
         string? note = null;
@@ -113,7 +113,7 @@ public static class Interventions
                 break;
             }
         }
-        string label = target.CueClass >= 0 ? $"{cue} → {table.Labels[target.CueClass]}" : cue;
+        string label = target.CueClass >= 0 ? $"{cue} → {table.ClassName(target.CueClass)}" : cue;
         return new CueEvidence(target.Attribute, target.Value, target.CueClass, region,
             measures.OfType<Measure>().Select(m => m with { Cue = label }).ToList(), runs.Runs - before, note);
     }

@@ -90,7 +90,7 @@ public static class AuditAssembler
         var r = e.Region;
         var region = new RegionReport(r.Kind, r.Box is { } b ? BoxDto.From(b) : null, Round(r.Share), Round(r.Peak), Round(r.Threshold), r.ImagesWith, r.ImagesWithout,
             plan.Recipe.Width, plan.Recipe.Height, r.MapWidth, r.MapHeight, r.Map);
-        return new CueReport(t.Attributes[e.Attribute].Values[e.Value], e.CueClass >= 0 ? t.Labels[e.CueClass] : null, region, e.Runs, e.Note);
+        return new CueReport(t.Attributes[e.Attribute].Values[e.Value], e.CueClass >= 0 ? t.ClassName(e.CueClass) : null, region, e.Runs, e.Note);
     }
 
     private static PlaceCandidate CandidateOf(AuditInputs x, PlaceCue c) =>

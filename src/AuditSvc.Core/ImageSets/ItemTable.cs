@@ -23,4 +23,12 @@ public sealed record ItemTable(
     IReadOnlyList<string> Labels,
     IReadOnlyList<AttributeColumn> Attributes,
     IReadOnlyList<ImageItem> Items,
-    IntakeReport Report);
+    IntakeReport Report)
+{
+    /// <summary>
+    /// The name of a model output: the set's label of that index, else "output N". A model may have more outputs than
+    /// the set has labels (a 1,000-way network audited on a 3-label set), and a cue may push decisions toward any of them.
+    /// </summary>
+    public string ClassName(int index) =>
+        index >= 0 && index < Labels.Count ? Labels[index] : $"output {index.ToString(System.Globalization.CultureInfo.InvariantCulture)}";
+}
