@@ -7,7 +7,8 @@
 `run` starts the command, stamps each progress line of its stderr with the time, samples the process's resident
 memory (VmRSS) and the bytes in its spill folder (DIR/.work/scores) every half second, takes the exact peak
 resident memory from the kernel when the process ends (wait4's ru_maxrss), and writes OUT.json with the audit's
-own seconds per phase (audit.json `phases`), the sampled peak per phase and the whole run's wall time. The command's
+own seconds per phase (audit.json `phases`), the CPU seconds per phase (all threads; they move less with other
+users' load than wall seconds), the sampled peak per phase and the whole run's wall time. The command's
 stdout and stderr go on to this script's stdout, so a log keeps the progress lines.
 
 Standard library only (bench/scale_run.sh calls it with whatever python3 is on the machine).
@@ -31,6 +32,16 @@ def rss_kib(pid):
     except OSError:
         pass
     return None
+
+
+def cpu_seconds(pid):
+    """User + system CPU seconds of every thread of the process so far (/proc/PID/stat fields 14 and 15)."""
+    try:
+        with open(f"/proc/{pid}/stat") as f:
+            fields = f.read().rsplit(")", 1)[1].split()
+        return (int(fields[11]) + int(fields[12])) / os.sysconf("SC_CLK_TCK")
+    except (OSError, IndexError, ValueError):
+        return None
 
 
 def folder_bytes(path):
@@ -58,6 +69,7 @@ def run(result_path, cmd):
     phase = {"name": "intake"}  # the process starts in intake, before its first stage line
     peaks = {}
     spill_peak = [0]
+    marks = [("intake", 0.0)]  # (phase, CPU seconds of the process when it began)
     lock = threading.Lock()
 
     def read_stderr():
@@ -67,8 +79,12 @@ def run(result_path, cmd):
             sys.stdout.flush()
             if line.startswith("["):
                 name = line[1:line.index("]")]
+                name = name if name in PHASES else "report" if name == "done" else name
+                cpu = cpu_seconds(proc.pid)
                 with lock:
-                    phase["name"] = name if name in PHASES else "report" if name == "done" else name
+                    phase["name"] = name
+                    if cpu is not None:
+                        marks.append((name, cpu))
 
     def read_stdout():
         for line in proc.stdout:
@@ -101,6 +117,10 @@ def run(result_path, cmd):
     if code in (0, 1) and os.path.exists(audit_json):
         with open(audit_json) as f:
             audit = json.load(f)
+    total_cpu = usage.ru_utime + usage.ru_stime
+    cpu_by_phase = {}
+    for (name, begun), (_, ended) in zip(marks, marks[1:] + [("end", total_cpu)]):
+        cpu_by_phase[name] = round(cpu_by_phase.get(name, 0) + ended - begun, 1)
     with open("/proc/loadavg") as f:
         load = f.read().split()[:3]
     result = {
@@ -110,6 +130,8 @@ def run(result_path, cmd):
         "peak_rss_mib": round(usage.ru_maxrss / 1024, 1),
         "sampled_peak_rss_mib_by_phase": {k: round(v / 1024, 1) for k, v in peaks.items()},
         "spill_peak_mib": round(spill_peak[0] / 2**20, 1),
+        "cpu_seconds": round(total_cpu, 1),
+        "cpu_seconds_by_phase": cpu_by_phase,
         "phases": audit.get("phases"),
         "images": (audit.get("pass") or {}).get("scored"),
         "units": (audit.get("pass") or {}).get("units"),
@@ -150,9 +172,19 @@ def table(paths):
     out.append("")
     out.append("| images | " + " | ".join(PHASES) + " |")
     out.append("|---|" + "---|" * len(PHASES))
+    rows = [r for r in rows if r["exit"] in (0, 1)]
     for r in rows:
         by = r.get("sampled_peak_rss_mib_by_phase") or {}
         out.append(f"| {count(r)} | " + " | ".join(f"{by[k]:.0f}" if k in by else "–" for k in PHASES) + " |")
+    out.append("")
+    out.append("CPU seconds per phase, all threads (intake includes the runtime's start):")
+    out.append("")
+    out.append("| images | " + " | ".join(PHASES) + " | total |")
+    out.append("|---|" + "---|" * (len(PHASES) + 1))
+    for r in rows:
+        by = r.get("cpu_seconds_by_phase")
+        if by:
+            out.append(f"| {count(r)} | " + " | ".join(f"{by[k]:.1f}" if k in by else "–" for k in PHASES) + f" | {r['cpu_seconds']:.1f} |")
     print("\n".join(out))
 
 
