@@ -271,7 +271,7 @@ class Binary(nn.Module):
 # --- Many units, little work: the scale run's model (bench/scale_run.sh) ---------------------------------------
 class WideUnits(nn.Module):
     """5,000 units read by default (1,000 at each of 16x16, 8x8, 4x4 and 2x2, and the pooled 1,000-vector) for about
-    10 M multiply-adds per image: a stride-4 patch stem, then grouped 1x1 convolutions between 2x2 max-pools. It is
+    13 M multiply-adds per image: a stride-4 patch stem, then grouped 1x1 convolutions between 2x2 max-pools. It is
     wide where the audit's cost lies (units, images) and thin where inference's lies (multiply-adds)."""
 
     def __init__(self, width=1000, groups=40, classes=3):
