@@ -50,6 +50,7 @@ public static class PlaceCues
         ArgumentNullException.ThrowIfNull(analysis);
         int h = plan.Recipe.Height, w = plan.Recipe.Width, n = act.Scores.ItemCount;
         var scores = new float[n];
+        double[]? otsuScratch = null; // one sort buffer for every unit of the place clusters, not one per unit
         var candidates = new List<(int Unit, LayerSlice Slice, int Channel, Peak[] Top, double Cy, double Cx, double Share, int Covered)>();
         for (int u = 0; u < act.UnitCount; u++)
         {
@@ -95,7 +96,7 @@ public static class PlaceCues
             foreach (var i in cl)
             {
                 act.Scores.ReadUnits(candidates[i].Unit, 1, scores);
-                var (split, eta) = OtsuSplit.Find(scores);
+                var (split, eta) = OtsuSplit.Find(scores, otsuScratch ??= new double[n]);
                 if (eta > bestEta) (best, bestSplit, bestEta) = (i, split, eta);
             }
             var strongest = candidates[best];
