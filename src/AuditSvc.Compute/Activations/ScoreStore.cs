@@ -15,11 +15,6 @@ public sealed class ScoreStore : IUnitScores, IDisposable
     private readonly HashSet<int> _onDisk = [];
     private readonly string? _spillDir;
     private readonly object _gate = new();
-    // Spilling reuses its arrays: a block written to disk hands its array to the next block, and one transpose buffer
-    // serves every spill. Fresh 40 MB arrays per block (a wide model's 4,096 rows × 5,000 units) left the runtime
-    // holding about 0.8 GB above the limit at 200,000 images.
-    private readonly Stack<Half[]> _free = new();
-    private Half[]? _transpose;
     private long _memoryBytes;
 
     public ScoreStore(int items, int units, int rowsPerBlock = 4096, long memoryLimitBytes = 512L << 20, string? spillDir = null)
@@ -51,7 +46,7 @@ public sealed class ScoreStore : IUnitScores, IDisposable
             if (!_memory.TryGetValue(block, out data!))
             {
                 int rows = Math.Min(RowsPerBlock, ItemCount - block * RowsPerBlock);
-                data = _free.TryPeek(out var spare) && spare.LongLength == (long)rows * UnitCount ? _free.Pop() : new Half[(long)rows * UnitCount];
+                data = new Half[(long)rows * UnitCount];
                 data.AsSpan().Fill(Half.NaN);
                 _memory[block] = data;
                 _memoryBytes += data.Length * 2L;
@@ -74,16 +69,13 @@ public sealed class ScoreStore : IUnitScores, IDisposable
             {
                 var data = _memory[block];
                 int rows = data.Length / UnitCount;
-                if (_transpose is null || _transpose.Length < data.Length) _transpose = new Half[data.Length];
-                var byUnit = _transpose.AsSpan(0, data.Length);
+                var byUnit = new Half[data.Length];
                 for (int r = 0; r < rows; r++)
-                    for (int u = 0; u < UnitCount; u++) byUnit[u * rows + r] = data[(long)r * UnitCount + u];
-                using (var file = File.OpenHandle(BlockPath(block), FileMode.Create, FileAccess.Write, FileShare.None))
-                    RandomAccess.Write(file, MemoryMarshal.AsBytes(byUnit), 0);
+                    for (int u = 0; u < UnitCount; u++) byUnit[(long)u * rows + r] = data[(long)r * UnitCount + u];
+                File.WriteAllBytes(BlockPath(block), MemoryMarshal.AsBytes(byUnit.AsSpan()));
                 _memory.Remove(block);
                 _onDisk.Add(block);
                 _memoryBytes -= data.Length * 2L;
-                if (_free.Count == 0) _free.Push(data);
             }
         }
     }

@@ -56,10 +56,9 @@ public class ScoreStoreTests
         Assert.Equal((float)(Half)rows[10][6], a[2 * items + 10]);
     }
 
-    // Spilled blocks hand their arrays on to later blocks: a row never written (an image that failed) must still read
-    // as NaN there, not as the scores of the block that used the array before.
+    // A row never written (an image that failed) reads as NaN, whether its block is in memory or spilled.
     [Fact]
-    public void ReadUnits_RowsSkippedAfterArraysAreReused_StayUnscored()
+    public void ReadUnits_RowsSkippedAcrossSpills_StayUnscored()
     {
         var dir = Path.Combine(Path.GetTempPath(), "auditsvc-scores-" + Guid.NewGuid().ToString("N"));
         int items = 1000, units = 7;
