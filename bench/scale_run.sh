@@ -12,7 +12,7 @@
 # The image set is the invented demo scenario (`auditsvc demo-set`), made once in parts of 50,000 images with
 # seeds 7, 8, 9, … (image i of a part depends only on its seed and i) and kept for later runs; the set of N
 # images is the first N rows across the parts. Audits run with the product's defaults: the scores matrix is kept
-# in memory up to 512 MiB (PassOptions.ScoreMemoryLimitBytes) and spilled to DIR/.work/scores past that.
+# in memory up to 512 MiB (PassOptions.ScoreMemoryLimitBytes, `audit --scores-memory`) and spilled to DIR/.work/scores past that.
 set -euo pipefail
 sizes=${1:-1000,10000,50000,200000}
 model=${2:-tests/models/wide-5000-units.onnx}
