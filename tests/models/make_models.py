@@ -268,6 +268,25 @@ class Binary(nn.Module):
         return torch.sigmoid(self.net(x))
 
 
+# --- Many units, little work: the scale run's model (bench/scale_run.sh) ---------------------------------------
+class WideUnits(nn.Module):
+    """5,000 units read by default (1,000 at each of 16x16, 8x8, 4x4 and 2x2, and the pooled 1,000-vector) for about
+    13 M multiply-adds per image: a stride-4 patch stem, then grouped 1x1 convolutions between 2x2 max-pools. It is
+    wide where the audit's cost lies (units, images) and thin where inference's lies (multiply-adds)."""
+
+    def __init__(self, width=1000, groups=40, classes=3):
+        super().__init__()
+        self.stem = nn.Sequential(nn.Conv2d(3, 40, 4, 4, bias=False), nn.BatchNorm2d(40), nn.ReLU())
+        self.s16 = cbr(40, width, 1)
+        self.s8 = nn.Sequential(nn.MaxPool2d(2), cbr(width, width, 1, groups=groups))
+        self.s4 = nn.Sequential(nn.MaxPool2d(2), cbr(width, width, 1, groups=groups))
+        self.s2 = nn.Sequential(nn.MaxPool2d(2), cbr(width, width, 1, groups=groups))
+        self.head = Head(width, classes)
+
+    def forward(self, x):
+        return self.head(self.s2(self.s4(self.s8(self.s16(self.stem(x))))))
+
+
 def export(name, model, shape=(1, 3, 64, 64), dynamic_hw=False, fixed_batch=False, opset=13):
     torch.manual_seed(sum(map(ord, name)))
     model.eval()
@@ -301,6 +320,7 @@ def main():
     export("channels-last-input", ChannelsLastInput(), shape=(1, 64, 64, 3))
     export("binary-sigmoid", Binary())
     export("classes-120", ResNet(120))
+    export("wide-5000-units", WideUnits())
 
 
 if __name__ == "__main__":

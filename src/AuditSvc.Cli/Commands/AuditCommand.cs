@@ -20,20 +20,25 @@ internal static class AuditCommand
         var policy = new Option<FileInfo?>("--policy") { Description = "Policy file (JSON; see schemas/policy.schema.json)" };
         var batch = new Option<int>("--batch") { Description = "Images per model run (0 = choose)" }.Batch();
         var threads = new Option<int>("--threads") { Description = "ONNX Runtime threads (0 = all cores)" }.Threads();
+        var scoresMemory = new Option<int>("--scores-memory")
+        {
+            Description = "MiB of the scores matrix (images × units, float16) kept in memory; past it, finished blocks go to a spill folder under --out",
+            DefaultValueFactory = _ => 512,
+        }.Within(16, 1 << 20, "MiB");
         var imagesRoot = new Option<DirectoryInfo?>("--images-root")
         {
             Description = "A folder manifest rows may also lead into (absolute paths included); without it, rows stay inside the manifest's folder",
         };
         var cmd = new Command("audit", "Audit a model and a labelled image set for shortcut cues; writes audit.json and report.html. Exit 0 pass, 1 block, 2 bad input.")
         {
-            model, data, output, policy, batch, threads, imagesRoot,
+            model, data, output, policy, batch, threads, scoresMemory, imagesRoot,
         };
         opts.AddTo(cmd);
         cmd.SetAction((parse, ct) =>
         {
             var pol = parse.GetValue(policy) is { } pf ? PolicyFile.Load(pf.FullName) : new AuditPolicy();
             var request = new AuditRequest(parse.GetValue(model)!.FullName, parse.GetValue(data)!, opts.Read(parse), pol,
-                new PassOptions { BatchSize = parse.GetValue(batch), InferenceThreads = parse.GetValue(threads) },
+                new PassOptions { BatchSize = parse.GetValue(batch), InferenceThreads = parse.GetValue(threads), ScoreMemoryLimitBytes = (long)parse.GetValue(scoresMemory) << 20 },
                 Path.Combine(parse.GetValue(output)!.FullName, ".work"), parse.GetValue(imagesRoot)?.FullName);
             return Task.FromResult(AuditRunner.RunAndWrite(request, parse.GetValue(output)!.FullName, ct));
         });

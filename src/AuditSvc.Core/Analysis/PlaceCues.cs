@@ -50,6 +50,7 @@ public static class PlaceCues
         ArgumentNullException.ThrowIfNull(analysis);
         int h = plan.Recipe.Height, w = plan.Recipe.Width, n = act.Scores.ItemCount;
         var scores = new float[n];
+        double[]? otsuScratch = null; // one sort buffer for every unit of the place clusters, not one per unit
         var candidates = new List<(int Unit, LayerSlice Slice, int Channel, Peak[] Top, double Cy, double Cx, double Share, int Covered)>();
         for (int u = 0; u < act.UnitCount; u++)
         {
@@ -95,7 +96,7 @@ public static class PlaceCues
             foreach (var i in cl)
             {
                 act.Scores.ReadUnits(candidates[i].Unit, 1, scores);
-                var (split, eta) = OtsuSplit.Find(scores);
+                var (split, eta) = OtsuSplit.Find(scores, otsuScratch ??= new double[n]);
                 if (eta > bestEta) (best, bestSplit, bestEta) = (i, split, eta);
             }
             var strongest = candidates[best];
@@ -163,7 +164,29 @@ public static class PlaceCues
     }
 
     /// <summary>Live: the ninth exemplar scores above the unit's median over the set (DESIGN: dead and flat units are dropped).</summary>
-    public static bool Live(ReadOnlySpan<Peak> top, float[] scores)
+    /// <remarks>
+    /// The median here is the finite scores' element at index ⌊m/2⌋ in ascending order (m finite scores), and
+    /// "ninth > that element" holds exactly when more than ⌊m/2⌋ finite scores lie below the ninth: one counting
+    /// pass, no copy and no sort. It runs for every unit of the audit, over every image (a sorted copy per unit
+    /// made the analysis of 50,000 images × 5,000 units allocate gigabytes; <see cref="LiveReference"/> is that
+    /// plain version, kept for the test that compares the two).
+    /// </remarks>
+    public static bool Live(ReadOnlySpan<Peak> top, ReadOnlySpan<float> scores)
+    {
+        if (top.Length == 0) return false;
+        var ninth = top[Math.Min(top.Length, 9) - 1].Score;
+        int finite = 0, below = 0;
+        foreach (float v in scores)
+        {
+            if (!float.IsFinite(v)) continue;
+            finite++;
+            if (v < ninth) below++;
+        }
+        return finite > 0 && float.IsFinite(ninth) && below > finite / 2;
+    }
+
+    /// <summary>The plain form of <see cref="Live"/>: sort the finite scores, take the middle one, compare.</summary>
+    public static bool LiveReference(ReadOnlySpan<Peak> top, float[] scores)
     {
         if (top.Length == 0) return false;
         var valid = scores.Where(float.IsFinite).ToArray();

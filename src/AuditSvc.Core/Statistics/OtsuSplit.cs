@@ -18,8 +18,16 @@ public static class OtsuSplit
     /// is (NaN, 0). On equal between-class variances the lowest threshold wins.
     /// </summary>
     /// <exception cref="ArgumentException">A value is infinite.</exception>
-    public static (double Threshold, double Separability) Find(ReadOnlySpan<float> values)
+    public static (double Threshold, double Separability) Find(ReadOnlySpan<float> values) => Find(values, new double[values.Length]);
+
+    /// <summary>
+    /// As <see cref="Find(ReadOnlySpan{float})"/>, sorting in <paramref name="scratch"/> (at least as long as
+    /// <paramref name="values"/>) instead of a new array: callers that split many units over a large image set
+    /// reuse one buffer.
+    /// </summary>
+    public static (double Threshold, double Separability) Find(ReadOnlySpan<float> values, Span<double> scratch)
     {
+        if (scratch.Length < values.Length) throw new ArgumentException("The scratch buffer is shorter than the values.", nameof(scratch));
         int count = 0;
         foreach (float v in values)
         {
@@ -27,7 +35,7 @@ public static class OtsuSplit
             if (float.IsInfinity(v)) throw new ArgumentException("Values must be finite or NaN.", nameof(values));
             count++;
         }
-        var sorted = new double[count];
+        var sorted = scratch[..count];
         int i = 0;
         double sum = 0;
         foreach (float v in values)
@@ -36,7 +44,7 @@ public static class OtsuSplit
             sorted[i++] = v;
             sum += v;
         }
-        Array.Sort(sorted);
+        sorted.Sort();
         if (count < 2 || sorted[0] == sorted[^1]) return (double.NaN, 0.0);
 
         // Centred values keep the sums of squares free of cancellation when the values sit far from 0.

@@ -55,4 +55,36 @@ public class ScoreStoreTests
         Assert.Equal(a, b);
         Assert.Equal((float)(Half)rows[10][6], a[2 * items + 10]);
     }
+
+    // A row never written (an image that failed) reads as NaN, whether its block is in memory or spilled.
+    [Fact]
+    public void ReadUnits_RowsSkippedAcrossSpills_StayUnscored()
+    {
+        var dir = Path.Combine(Path.GetTempPath(), "auditsvc-scores-" + Guid.NewGuid().ToString("N"));
+        int items = 1000, units = 7;
+        var rng = new Random(5);
+        using var spilled = new ScoreStore(items, units, rowsPerBlock: 64, memoryLimitBytes: 64 * 7 * 2, spillDir: dir);
+        var written = new bool[items];
+        for (int i = 0; i < items; i++)
+        {
+            if (i < 128 || i % 3 != 0)
+            {
+                spilled.WriteRow(i, Enumerable.Range(0, units).Select(_ => (float)rng.NextDouble()).ToArray());
+                written[i] = true;
+            }
+            spilled.SpillIfNeeded(i + 1);
+        }
+        var all = new float[units * items];
+        spilled.ReadUnits(0, units, all);
+        var rows = new Half[items * units];
+        spilled.ReadRows(0, items, rows);
+
+        Assert.True(spilled.Spilled);
+        for (int i = 0; i < items; i++)
+            for (int u = 0; u < units; u++)
+            {
+                Assert.Equal(!written[i], float.IsNaN(all[u * items + i]));
+                Assert.Equal(!written[i], Half.IsNaN(rows[i * units + u]));
+            }
+    }
 }

@@ -39,6 +39,17 @@ public class ModelFamiliesTests
     }
 
     [Fact]
+    public void Load_ScaleFixture_ReadsFiveThousandUnitsByDefault()
+    {
+        // bench/scale_run.sh audits with this model and docs/performance.md states its 5,000 units: keep them true.
+        var plan = Plan("wide-5000-units");
+        Assert.Equal(5000, plan.ReadLayers.Sum(l => l.Channels));
+        Assert.Equal([16, 8, 4, 2, 1], plan.ReadLayers.Select(l => l.Height).ToArray());
+        Assert.All(plan.ReadLayers, l => Assert.Equal(1000, l.Channels));
+        Assert.True(new FileInfo(Fixture("wide-5000-units")).Length < 1 << 20);
+    }
+
+    [Fact]
     public void Load_SqueezeExcitation_FieldsStayLocalAndAreMarkedGlobal()
     {
         var plan = Plan("mobilenetv3-normalised");

@@ -126,6 +126,21 @@ public class OtsuSplitTests
         return between / total;
     }
 
+    [Fact]
+    public void Find_WithAReusedScratch_EqualsFindWithItsOwnArray()
+    {
+        var random = new Random(11);
+        var scratch = new double[64];
+        for (int trial = 0; trial < 500; trial++)
+        {
+            // The scratch keeps the previous trial's values: nothing of them may leak into the next split.
+            var values = Enumerable.Range(0, random.Next(0, 64))
+                .Select(_ => random.Next(8) == 0 ? float.NaN : (float)Math.Round(Gaussian(random) * 3, 1)).ToArray();
+            Assert.Equal(OtsuSplit.Find(values), OtsuSplit.Find(values, scratch));
+        }
+        Assert.Throws<ArgumentException>(() => OtsuSplit.Find([1f, 2f, 3f], new double[2]));
+    }
+
     private static double Gaussian(Random random) =>
         Math.Sqrt(-2 * Math.Log(1 - random.NextDouble())) * Math.Cos(2 * Math.PI * random.NextDouble());
 }
