@@ -236,6 +236,8 @@ public class CountOptionTests
     [InlineData("--threads", "100000")]
     [InlineData("--threads", "-1")]
     [InlineData("--batch", "1000000")]
+    [InlineData("--scores-memory", "1")]
+    [InlineData("--scores-memory", "2000000")]
     public void Audit_CountOutOfRange_ExitsTwoNamingTheOption(string option, string value)
     {
         var (status, _, stderr) = CliProcess.Run("audit", "--model", "m.onnx", "--data", "d.csv", option, value);
