@@ -68,13 +68,7 @@ public class AnimatedImageTests
         return file.ToArray();
     }
 
-    private static string IntakeReason(string dir, string file)
-    {
-        using (var ok = new Image<Rgb24>(8, 8, new Rgb24(1, 2, 3))) ok.SaveAsPng(Path.Combine(dir, "ok.png"));
-        File.WriteAllText(Path.Combine(dir, "manifest.csv"), $"image,label\nok.png,0\n{file},1\n");
-        var t = SetIntake.Read(Path.Combine(dir, "manifest.csv"), ["0", "1"], dir);
-        return t.Report.Problems.SingleOrDefault(p => p.Row == 2)?.Reason ?? "accepted";
-    }
+    private static string IntakeReason(string dir, string file) => ImageDecodingTests.IntakeReason(dir, file);
 
     [Fact]
     public void ImageSharp_AnimatedWebp_IsNotDecodedAtAll()

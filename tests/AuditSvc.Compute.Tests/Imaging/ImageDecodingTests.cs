@@ -25,7 +25,8 @@ public class ImageDecodingTests
     private static Preprocessor Fit(int w, int h) =>
         new(new InputRecipe(w, h, AuditSvc.Core.Models.ResizeMode.Stretch, 1, [0f], [1f], ChannelOrder.Rgb, null));
 
-    private static string IntakeReason(string dir, string file)
+    /// <summary>Intake's reason for skipping <paramref name="file"/> (row 2, beside a good image), or "accepted".</summary>
+    internal static string IntakeReason(string dir, string file)
     {
         using (var ok = new Image<Rgb24>(8, 8, new Rgb24(1, 2, 3))) ok.SaveAsPng(Path.Combine(dir, "ok.png"));
         File.WriteAllText(Path.Combine(dir, "manifest.csv"), $"image,label\nok.png,0\n{file},1\n");
