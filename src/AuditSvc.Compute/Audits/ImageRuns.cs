@@ -1,5 +1,6 @@
 using AuditSvc.Compute.Activations;
 using AuditSvc.Core.Activations;
+using AuditSvc.Core.ImageSets;
 using SixLabors.ImageSharp;
 using SixLabors.ImageSharp.PixelFormats;
 
@@ -20,19 +21,45 @@ public sealed class ImageRuns(ActivationPass pass) : IDisposable
     public Image<Rgb24>? Fitted(string path, int item)
     {
         if (_cache.TryGetValue(item, out var img)) return img;
-        try
-        {
-            img = pass.Preprocessor.Load(path);
-        }
-        catch (Exception e) when (e is UnknownImageFormatException or InvalidImageContentException or IOException or NotSupportedException)
-        {
-            return null;
-        }
+        img = TryLoad(path);
+        if (img is null) return null;
         // Bounded by bytes, not count: 224×224 images are 150 KB each.
         // Evicted images are not disposed: a caller may still hold one; the collector takes them.
         if ((_cache.Count + 1L) * img.Width * img.Height * 3 > CacheBytes) _cache.Clear();
         _cache[item] = img;
         return img;
+    }
+
+    /// <summary>
+    /// Decodes the items an edit is about to read on the pass's decode threads, as many as the cache has room for, so
+    /// that <see cref="Fitted"/> finds them: the edits stay in order on one thread, and an image decodes to the same
+    /// pixels whichever thread decodes it. An image that fails here is not cached; <see cref="Fitted"/> tries it again
+    /// and reports it as before.
+    /// </summary>
+    public void Prefetch(ItemTable table, IEnumerable<int> items)
+    {
+        long each = Math.Max(1L, (long)Width * Height * 3);
+        int room = (int)Math.Max(0, CacheBytes / each - _cache.Count);
+        var todo = items.Where(i => !_cache.ContainsKey(i)).Distinct().Take(room).ToList();
+        int threads = Math.Max(1, pass.Options.DecodeThreads);
+        if (todo.Count < 2 || threads < 2) return;
+        var loaded = new Image<Rgb24>?[todo.Count];
+        Parallel.For(0, todo.Count, new ParallelOptions { MaxDegreeOfParallelism = threads },
+            j => loaded[j] = TryLoad(table.Items[todo[j]].Path));
+        for (int j = 0; j < todo.Count; j++)
+            if (loaded[j] is { } img) _cache[todo[j]] = img;
+    }
+
+    private Image<Rgb24>? TryLoad(string path)
+    {
+        try
+        {
+            return pass.Preprocessor.Load(path);
+        }
+        catch (Exception e) when (e is UnknownImageFormatException or InvalidImageContentException or IOException or NotSupportedException)
+        {
+            return null;
+        }
     }
 
     /// <summary>Predicted class of each image, and the score of <paramref name="unit"/> when it is not null.</summary>

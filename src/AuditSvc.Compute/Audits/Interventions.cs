@@ -31,6 +31,7 @@ public static class Interventions
         double r = 0, g = 0, b = 0;
         long n = 0;
         int step = Math.Max(1, table.Items.Count / sample);
+        runs.Prefetch(table, Enumerable.Range(0, (table.Items.Count + step - 1) / step).Select(j => j * step));
         for (int i = 0; i < table.Items.Count; i += step)
         {
             var img = runs.Fitted(table.Items[i].Path, i);
@@ -144,7 +145,8 @@ public static class Interventions
         foreach (var k in order)
             foreach (var side in new[] { true, false })
             {
-                var items = byGroup[(k, side)].OrderBy(_ => rng.Next()).Take(RegionImagesPerSide);
+                var items = byGroup[(k, side)].OrderBy(_ => rng.Next()).Take(RegionImagesPerSide).ToList();
+                runs.Prefetch(table, items);
                 foreach (var i in items)
                 {
                     var img = runs.Fitted(table.Items[i].Path, i);
@@ -169,6 +171,7 @@ public static class Interventions
         var treated = new List<Image<Rgb24>>();
         var control = new List<Image<Rgb24>>();
         var kept = new List<int>();
+        runs.Prefetch(table, pairs.SelectMany(p => new[] { p.Recipient, p.Donor, p.ControlDonor }));
         foreach (var p in pairs)
         {
             var target = runs.Fitted(table.Items[p.Recipient].Path, p.Recipient);
@@ -199,6 +202,7 @@ public static class Interventions
         var treated = new List<Image<Rgb24>>();
         var control = new List<Image<Rgb24>>();
         var kept = new List<InterventionPair>();
+        runs.Prefetch(table, pairs.SelectMany(p => new[] { p.Recipient, p.ControlDonor }));
         foreach (var p in pairs)
         {
             var a = runs.Fitted(table.Items[p.Recipient].Path, p.Recipient);
