@@ -68,20 +68,17 @@ public static class AuditPipeline
     public static AuditResult FinishChunks(LoadedModel model, ItemTable table, IReadOnlyList<ChunkResult> chunks, AuditPolicy policy, PassOptions options,
         double passSeconds, Action<AuditStage, string>? stage = null, CancellationToken ct = default)
     {
-        using var pass = new ActivationPass(model.Plan, model.RewrittenModel, options);
-        var act = ChunkResult.Merge(pass.Layers, table.Items.Count, chunks, pass.Options);
-        try
+        if (chunks.Count == 0) throw new ArgumentException("no chunks", nameof(chunks));
+        // The feed is synchronous (the chunks are in hand), so the task has completed when it returns.
+        return FinishChunksAsync(model, table, merger =>
         {
-            return Finish(pass, table, model, act, policy, passSeconds, stage, ct);
-        }
-        finally
-        {
-            (act.Scores as IDisposable)?.Dispose();
-        }
+            foreach (var c in chunks.OrderBy(c => c.Start)) merger.Add(c);
+            return Task.FromResult(passSeconds);
+        }, policy, options, stage, ct).GetAwaiter().GetResult();
     }
 
     /// <summary>
-    /// As <see cref="FinishChunks"/>, with the chunks handed over one at a time: <paramref name="feed"/> adds them to the
+    /// Merges chunks handed over one at a time: <paramref name="feed"/> adds them to the
     /// merger in item order (reading each from wherever it is kept) and returns the pass's seconds summed over them.
     /// </summary>
     public static async Task<AuditResult> FinishChunksAsync(LoadedModel model, ItemTable table, Func<ChunkMerger, Task<double>> feed,

@@ -6,7 +6,7 @@ namespace AuditSvc.Compute.Audits;
 /// <summary>
 /// What one chunk of items [Start, Start + Count) contributes to an audit: its rows of the scores matrix (float16),
 /// each unit's top-n peaks among its items, and its items' predictions. Chunks are independent and exactly
-/// mergeable (<see cref="Merge"/>); <see cref="Write"/> and <see cref="Read"/> move them between processes.
+/// mergeable (<see cref="ChunkMerger"/>); <see cref="Write"/> and <see cref="Read"/> move them between processes.
 /// </summary>
 public sealed record ChunkResult(
     int Start,
@@ -35,23 +35,6 @@ public sealed record ChunkResult(
             Enumerable.Range(0, units).Select(u => act.Top.Raw(u).ToArray()).ToArray(),
             act.Scored.AsSpan(start, count).ToArray(), act.Predicted.AsSpan(start, count).ToArray(),
             act.Probabilities.AsSpan(start * k, count * k).ToArray(), act.Problems.ToList());
-    }
-
-    /// <summary>Merges the chunks of one audit into the activation result the analysis reads (see <see cref="ChunkMerger"/>).</summary>
-    public static ActivationResult Merge(IReadOnlyList<LayerSlice> layers, int items, IReadOnlyList<ChunkResult> chunks, PassOptions options)
-    {
-        if (chunks.Count == 0) throw new ArgumentException("no chunks", nameof(chunks));
-        var merger = new ChunkMerger(layers, items, options);
-        try
-        {
-            foreach (var c in chunks.OrderBy(c => c.Start)) merger.Add(c);
-            return merger.Finish();
-        }
-        catch
-        {
-            merger.Dispose();
-            throw;
-        }
     }
 
     /// <summary>Writes the chunk in format 2: scores as float16, peaks in the compact form of <see cref="ChunkPeaks"/>.</summary>

@@ -5,11 +5,7 @@ using System.Text.Json;
 using AuditSvc.Api.Engine;
 using AuditSvc.Api.Tests.Hosting;
 using AuditSvc.Data.Teams;
-using Microsoft.AspNetCore.Builder;
 using Microsoft.AspNetCore.Hosting;
-using Microsoft.AspNetCore.Hosting.Server;
-using Microsoft.AspNetCore.Hosting.Server.Features;
-using Microsoft.AspNetCore.Http.Features;
 using Microsoft.Extensions.Configuration;
 using Microsoft.Extensions.DependencyInjection;
 using Microsoft.Extensions.Logging;
@@ -48,7 +44,7 @@ public sealed class DatabaseRestartTests(ITestOutputHelper output)
         await app.StartAsync();
         try
         {
-            var address = new Uri(app.Services.GetRequiredService<IServer>().Features.GetRequiredFeature<IServerAddressesFeature>().Addresses.First());
+            var address = ServiceUnderTest.AddressOf(app);
             string key;
             await using (var db = NpgsqlDataSource.Create(pg.ConnectionString))
             {

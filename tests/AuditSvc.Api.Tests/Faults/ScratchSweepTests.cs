@@ -5,14 +5,6 @@ using System.Text.Json;
 using AuditSvc.Api.Tests.Artifacts;
 using AuditSvc.Api.Tests.Hosting;
 using AuditSvc.Data.Tests;
-using Microsoft.AspNetCore.Builder;
-using Microsoft.AspNetCore.Hosting;
-using Microsoft.AspNetCore.Hosting.Server;
-using Microsoft.AspNetCore.Hosting.Server.Features;
-using Microsoft.AspNetCore.Http.Features;
-using Microsoft.Extensions.Configuration;
-using Microsoft.Extensions.DependencyInjection;
-using Microsoft.Extensions.Logging;
 
 namespace AuditSvc.Api.Tests.Faults;
 
@@ -49,13 +41,7 @@ public sealed class ScratchSweepTests
         File.SetLastWriteTimeUtc(legacy, DateTime.UtcNow.AddHours(-2));
         Assert.True(File.Exists(partial) && File.Exists(legacy), "the kill left its partial file, as a kill does");
 
-        await using var again = ServiceHost.BuildApi([], b =>
-        {
-            b.Configuration.AddInMemoryCollection(ServiceUnderTest.Settings(svc.Db, svc.DataRoot, 0));
-            b.WebHost.UseUrls("http://127.0.0.1:0");
-            b.Logging.SetMinimumLevel(LogLevel.Warning);
-            b.Services.AddSingleton<Api.Engine.IAuditEngine>(new CountingEngine());
-        });
+        await using var again = svc.BuildAgain();
         await again.StartAsync();
         try
         {
@@ -63,8 +49,7 @@ public sealed class ScratchSweepTests
             Assert.False(Directory.Exists(Path.GetDirectoryName(partial)), "the killed process's scratch folder survived the start");
             Assert.False(File.Exists(legacy));
             Assert.Equal(registered, Stored(svc.DataRoot));
-            var address = again.Services.GetRequiredService<IServer>().Features.GetRequiredFeature<IServerAddressesFeature>().Addresses.First();
-            using var after = new HttpClient { BaseAddress = new Uri(address) };
+            using var after = new HttpClient { BaseAddress = ServiceUnderTest.AddressOf(again) };
             after.DefaultRequestHeaders.Authorization = client.DefaultRequestHeaders.Authorization;
             Assert.Equal(1, (await after.GetFromJsonAsync<JsonElement>("/api/models")).GetArrayLength());
             Assert.Equal(1, (await after.GetFromJsonAsync<JsonElement>("/api/image-sets")).GetArrayLength());
@@ -83,13 +68,7 @@ public sealed class ScratchSweepTests
         using var held = new FileStream(Path.Combine(svc.DataRoot, Api.Artifacts.ScratchSpace.OwnersFolder, "99-alive.lock"),
             FileMode.Open, FileAccess.ReadWrite, FileShare.None);
 
-        await using var again = ServiceHost.BuildApi([], b =>
-        {
-            b.Configuration.AddInMemoryCollection(ServiceUnderTest.Settings(svc.Db, svc.DataRoot, 0));
-            b.WebHost.UseUrls("http://127.0.0.1:0");
-            b.Logging.SetMinimumLevel(LogLevel.Warning);
-            b.Services.AddSingleton<Api.Engine.IAuditEngine>(new CountingEngine());
-        });
+        await using var again = svc.BuildAgain();
         await again.StartAsync();
         await again.StopAsync();
 

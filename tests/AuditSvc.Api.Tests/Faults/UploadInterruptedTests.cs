@@ -2,14 +2,6 @@ using System.Net.Http.Headers;
 using System.Net.Http.Json;
 using System.Text.Json;
 using AuditSvc.Api.Tests.Hosting;
-using Microsoft.AspNetCore.Builder;
-using Microsoft.AspNetCore.Hosting;
-using Microsoft.AspNetCore.Hosting.Server;
-using Microsoft.AspNetCore.Hosting.Server.Features;
-using Microsoft.AspNetCore.Http.Features;
-using Microsoft.Extensions.Configuration;
-using Microsoft.Extensions.DependencyInjection;
-using Microsoft.Extensions.Logging;
 
 namespace AuditSvc.Api.Tests.Faults;
 
@@ -45,18 +37,11 @@ public sealed class UploadInterruptedTests
         var answer = await Record.ExceptionAsync(async () => (await upload).EnsureSuccessStatusCode());
         Assert.NotNull(answer); // the upload did not succeed
 
-        await using var again = ServiceHost.BuildApi([], b =>
-        {
-            b.Configuration.AddInMemoryCollection(ServiceUnderTest.Settings(svc.Db, svc.DataRoot, 0));
-            b.WebHost.UseUrls("http://127.0.0.1:0");
-            b.Logging.SetMinimumLevel(LogLevel.Warning);
-            b.Services.AddSingleton<Api.Engine.IAuditEngine>(new CountingEngine());
-        });
+        await using var again = svc.BuildAgain();
         await again.StartAsync();
         try
         {
-            var address = again.Services.GetRequiredService<IServer>().Features.GetRequiredFeature<IServerAddressesFeature>().Addresses.First();
-            using var after = new HttpClient { BaseAddress = new Uri(address) };
+            using var after = new HttpClient { BaseAddress = ServiceUnderTest.AddressOf(again) };
             after.DefaultRequestHeaders.Authorization = new AuthenticationHeaderValue("Bearer", key);
 
             Assert.Equal(0, (await after.GetFromJsonAsync<JsonElement>("/api/models")).GetArrayLength());

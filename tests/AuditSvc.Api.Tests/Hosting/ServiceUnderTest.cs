@@ -54,9 +54,24 @@ public sealed class ServiceUnderTest : IAsyncDisposable
             else b.Services.AddSingleton(engine ?? new CountingEngine());
         });
         await app.StartAsync();
-        var address = app.Services.GetRequiredService<IServer>().Features.GetRequiredFeature<IServerAddressesFeature>().Addresses.First();
-        return new ServiceUnderTest(db, root, app, new Uri(address));
+        return new ServiceUnderTest(db, root, app, AddressOf(app));
     }
+
+    /// <summary>The address a started host listens on (it was given port 0).</summary>
+    public static Uri AddressOf(WebApplication app) =>
+        new(app.Services.GetRequiredService<IServer>().Features.GetRequiredFeature<IServerAddressesFeature>().Addresses.First());
+
+    /// <summary>
+    /// A second service host over this one's database and artifact root, with the counting engine and
+    /// <paramref name="workers"/> audit workers, built but not started: what a restart of the service looks like.
+    /// </summary>
+    public WebApplication BuildAgain(int workers = 0) => ServiceHost.BuildApi([], b =>
+    {
+        b.Configuration.AddInMemoryCollection(Settings(Db, DataRoot, workers));
+        b.WebHost.UseUrls("http://127.0.0.1:0");
+        b.Logging.SetMinimumLevel(LogLevel.Warning);
+        b.Services.AddSingleton<IAuditEngine>(new CountingEngine());
+    });
 
     public static Dictionary<string, string?> Settings(TestDatabase db, string root, int workers) => new()
     {

@@ -5,11 +5,7 @@ using System.Net.Http.Json;
 using AuditSvc.Api.Engine;
 using AuditSvc.Api.Tests.Hosting;
 using AuditSvc.Api.Tests.Ui;
-using Microsoft.AspNetCore.Builder;
 using Microsoft.AspNetCore.Hosting;
-using Microsoft.AspNetCore.Hosting.Server;
-using Microsoft.AspNetCore.Hosting.Server.Features;
-using Microsoft.AspNetCore.Http.Features;
 using Microsoft.Extensions.Configuration;
 using Microsoft.Extensions.DependencyInjection;
 using Microsoft.Extensions.Logging;
@@ -43,7 +39,7 @@ public sealed class SecretsAndPathsTests
         await app.StartAsync();
         try
         {
-            var address = new Uri(app.Services.GetRequiredService<IServer>().Features.GetRequiredFeature<IServerAddressesFeature>().Addresses.First());
+            var address = ServiceUnderTest.AddressOf(app);
             var (key, info) = await KeyAsync(db, "team-a", "owner");
             var (revoked, revokedInfo) = await KeyAsync(db, "team-a", "leaver");
             await new Data.Teams.ApiKeyStore(db.DataSource).RevokeAsync(revokedInfo.Prefix, CancellationToken.None);
