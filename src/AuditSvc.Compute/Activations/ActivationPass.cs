@@ -4,6 +4,8 @@ using AuditSvc.Core.Activations;
 using AuditSvc.Core.ImageSets;
 using AuditSvc.Core.Models;
 using Microsoft.ML.OnnxRuntime;
+using SixLabors.ImageSharp;
+using SixLabors.ImageSharp.PixelFormats;
 
 namespace AuditSvc.Compute.Activations;
 
@@ -22,6 +24,7 @@ public sealed class ActivationPass : IDisposable
     private readonly Preprocessor _pre;
     private readonly IReadOnlyList<LayerSlice> _layers;
     private readonly int _units;
+    private Image<Rgb24>?[]? _kept;
 
     public ActivationPass(ModelPlan plan, byte[] onnx, PassOptions options)
     {
@@ -56,11 +59,22 @@ public sealed class ActivationPass : IDisposable
 
     public IReadOnlyList<LayerSlice> Layers => _layers;
 
+    /// <summary>
+    /// The fitted image of <paramref name="item"/> (input size, RGB) as the last <see cref="Run"/> decoded it, when that
+    /// run kept its images; null otherwise. Owned by the pass: callers clone before editing and never dispose it.
+    /// </summary>
+    public Image<Rgb24>? Kept(int item) => _kept is { } k && (uint)item < (uint)k.Length ? k[item] : null;
+
     /// <summary>Runs the pass over items [start, start + count) of the table (the whole table by default).</summary>
-    public ActivationResult Run(ItemTable table, IProgress<PassProgress>? progress, CancellationToken ct, int start = 0, int count = -1)
+    /// <param name="keepFittedBytes">When every image of the run fits in this many bytes at the input size, the decoded
+    /// images are kept for later runs on edited copies (<see cref="Kept"/>), so that they are not decoded twice; else none is.</param>
+    public ActivationResult Run(ItemTable table, IProgress<PassProgress>? progress, CancellationToken ct, int start = 0, int count = -1,
+        long keepFittedBytes = 0)
     {
         if (count < 0) count = table.Items.Count - start;
         int n = table.Items.Count;
+        ReleaseKept();
+        if (count > 0 && (long)count * _pre.Recipe.Width * _pre.Recipe.Height * 3 <= keepFittedBytes) _kept = new Image<Rgb24>?[n];
         var sink = NewCollector(n, item => table.Items[item].RelativePath);
         int b = Options.BatchSize, slot = _pre.SlotLength;
         var clock = Stopwatch.StartNew();
@@ -119,8 +133,20 @@ public sealed class ActivationPass : IDisposable
         var dest = batch.Input.AsSpan(i * _pre.SlotLength, _pre.SlotLength);
         try
         {
-            using var image = _pre.Load(path);
-            _pre.Write(image, dest);
+            var image = _pre.Load(path);
+            try
+            {
+                _pre.Write(image, dest);
+                if (_kept is { } kept)
+                {
+                    kept[batch.Items[i]] = image;
+                    image = null;
+                }
+            }
+            finally
+            {
+                image?.Dispose();
+            }
             batch.Ok[i] = true;
             batch.Error[i] = null;
         }
@@ -181,8 +207,17 @@ public sealed class ActivationPass : IDisposable
         for (int i = 0; i < v.Length; i++) v[i] /= sum;
     }
 
+    /// <summary>Frees the images the last run kept.</summary>
+    public void ReleaseKept()
+    {
+        if (_kept is null) return;
+        foreach (var image in _kept) image?.Dispose();
+        _kept = null;
+    }
+
     public void Dispose()
     {
+        ReleaseKept();
         if (_fullRunner.IsValueCreated && _fullRunner.Value != _runner) _fullRunner.Value.Dispose();
         _runner.Dispose();
     }

@@ -41,7 +41,8 @@ public static class AuditPipeline
         using var pass = new ActivationPass(model.Plan, model.RewrittenModel, passOptions);
         stage?.Invoke(AuditStage.Pass, $"{table.Items.Count} images, {pass.Layers.Sum(l => l.Count)} units in {pass.Layers.Count} layers, batch {pass.Options.BatchSize}");
         var clock = Stopwatch.StartNew();
-        var act = pass.Run(table, progress, ct);
+        // Small sets keep their decoded images for the interventions, which would otherwise decode most of them again.
+        var act = pass.Run(table, progress, ct, keepFittedBytes: ImageRuns.CacheBytes);
         double passSeconds = clock.Elapsed.TotalSeconds;
         try
         {

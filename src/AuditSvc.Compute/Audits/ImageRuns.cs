@@ -12,7 +12,8 @@ namespace AuditSvc.Compute.Audits;
 /// </summary>
 public sealed class ImageRuns(ActivationPass pass) : IDisposable
 {
-    private const long CacheBytes = 128L << 20;
+    /// <summary>Bytes of fitted images held for edits: this cache's bound, and the most a pass keeps for them.</summary>
+    public const long CacheBytes = 128L << 20;
     private readonly Dictionary<int, Image<Rgb24>> _cache = [];
 
     public int Runs { get; private set; }
@@ -20,6 +21,7 @@ public sealed class ImageRuns(ActivationPass pass) : IDisposable
     /// <summary>The image of an item brought to the input size (cached; callers clone before editing).</summary>
     public Image<Rgb24>? Fitted(string path, int item)
     {
+        if (pass.Kept(item) is { } kept) return kept;
         if (_cache.TryGetValue(item, out var img)) return img;
         img = TryLoad(path);
         if (img is null) return null;
@@ -40,7 +42,7 @@ public sealed class ImageRuns(ActivationPass pass) : IDisposable
     {
         long each = Math.Max(1L, (long)Width * Height * 3);
         int room = (int)Math.Max(0, CacheBytes / each - _cache.Count);
-        var todo = items.Where(i => !_cache.ContainsKey(i)).Distinct().Take(room).ToList();
+        var todo = items.Where(i => pass.Kept(i) is null && !_cache.ContainsKey(i)).Distinct().Take(room).ToList();
         int threads = Math.Max(1, pass.Options.DecodeThreads);
         if (todo.Count < 2 || threads < 2) return;
         var loaded = new Image<Rgb24>?[todo.Count];

@@ -81,4 +81,39 @@ public class ActivationPassTests
         Assert.Equal("3.png", problem.File);
         Assert.Equal(-1, act.Predicted[3]);
     }
+
+    [Fact]
+    public void Run_KeepsFittedImagesOnlyWhenAllFit_AndEditsReadTheSamePixelsAsADecode()
+    {
+        var table = RandomSet(12, out var dir);
+        File.WriteAllText(Path.Combine(dir, "5.png"), "garbage after intake");
+        var model = ModelIntake.Load(Model);
+        using var pass = new ActivationPass(model.Plan, model.RewrittenModel, new PassOptions { BatchSize = 4, DecodeThreads = 2 });
+        long each = model.Plan.Recipe.Width * model.Plan.Recipe.Height * 3;
+
+        // One byte short of the whole set: nothing is kept (all or nothing, so a large set pays no memory for it).
+        pass.Run(table, null, CancellationToken.None, keepFittedBytes: 12 * each - 1);
+        Assert.All(Enumerable.Range(0, 12), i => Assert.Null(pass.Kept(i)));
+
+        pass.Run(table, null, CancellationToken.None, keepFittedBytes: 12 * each);
+        Assert.Null(pass.Kept(5));
+        Assert.Null(pass.Kept(12));
+        using var runs = new AuditSvc.Compute.Audits.ImageRuns(pass);
+        foreach (var item in table.Items.Where(i => i.Index != 5))
+        {
+            var kept = pass.Kept(item.Index);
+            Assert.NotNull(kept);
+            // The interventions' reader hands out the kept image itself, and it holds what a fresh decode gives.
+            Assert.Same(kept, runs.Fitted(item.Path, item.Index));
+            using var fresh = pass.Preprocessor.Load(item.Path);
+            var a = new Rgb24[each / 3];
+            var b = new Rgb24[each / 3];
+            kept!.CopyPixelDataTo(a);
+            fresh.CopyPixelDataTo(b);
+            Assert.Equal(b, a);
+        }
+        Assert.Null(runs.Fitted(table.Items[5].Path, 5));
+        pass.ReleaseKept();
+        Assert.Null(pass.Kept(0));
+    }
 }
