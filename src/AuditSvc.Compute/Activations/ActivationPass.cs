@@ -55,6 +55,12 @@ public sealed class ActivationPass : IDisposable
     /// <summary>A runner whose layer outputs are the full activation maps (for runs that read single units).</summary>
     public ModelRunner Runner => _fullRunner.Value;
 
+    /// <summary>
+    /// The pass's own runner, for runs that read only the class output: the graph whose predictions the pass recorded,
+    /// and no second session to build.
+    /// </summary>
+    public ModelRunner ClassRunner => _runner;
+
     public Preprocessor Preprocessor => _pre;
 
     public IReadOnlyList<LayerSlice> Layers => _layers;

@@ -67,7 +67,9 @@ public sealed class ImageRuns(ActivationPass pass) : IDisposable
     /// <summary>Predicted class of each image, and the score of <paramref name="unit"/> when it is not null.</summary>
     public (int[] Predicted, float[] UnitScore) Run(IReadOnlyList<Image<Rgb24>> images, (LayerSlice Layer, int Channel)? unit = null)
     {
-        var runner = pass.Runner;
+        // Predictions alone come from the pass's own session (the one that recorded the unedited predictions); the
+        // full-maps session is built only when a unit's score is asked for.
+        var runner = unit is null ? pass.ClassRunner : pass.Runner;
         int slot = pass.Preprocessor.SlotLength, k = runner.Plan.ClassCount;
         int batch = runner.Plan.Batch == Core.Models.BatchMode.ConcurrentSingle ? 1 : Math.Max(1, pass.Options.BatchSize);
         var predicted = new int[images.Count];
