@@ -114,7 +114,7 @@ internal static class BenchCommand
         {
             var p = row.Phases;
             w.WriteLine($"N = {row.Images,-7} audit {row.AuditSeconds,7:0.0} s ({row.AuditImagesPerSecond:0.0} images/s; intake {p.Intake ?? 0:0.0}, pass {p.Pass:0.0}, " +
-                $"analysis {p.Analysis:0.0}, interventions {p.Interventions:0.0}, report {p.Report ?? 0:0.0}; {row.Scored} scored, {row.Findings} findings; load {row.LoadBefore:0.0} to {row.LoadAfter:0.0})");
+                $"analysis {p.Analysis:0.0}, interventions {p.Interventions:0.0}, report {p.Report ?? 0:0.0}; {row.Scored} scored, {row.Findings} findings; JIT {row.JitSeconds:0.00} s; load {row.LoadBefore:0.0} to {row.LoadAfter:0.0})");
             if (row.ScriptLoopSeconds is { } loop)
                 w.WriteLine($"             script {loop,6:0.0} s ({row.ScriptProcessSeconds:0.0} s as a process)  audit/script {row.VsScriptLoop:0.00} ({row.VsScriptProcess:0.00} against the process)");
             else if (row.ScriptNote is not null) w.WriteLine($"             eager script not run: {row.ScriptNote}");
@@ -131,7 +131,7 @@ internal static class BenchCommand
             ["images"] = row.Images, ["audit_seconds"] = Round(row.AuditSeconds), ["intake_seconds"] = row.Phases.Intake is { } i ? Round(i) : null,
             ["pass_seconds"] = Round(row.Phases.Pass), ["analysis_seconds"] = Round(row.Phases.Analysis),
             ["interventions_seconds"] = Round(row.Phases.Interventions), ["report_seconds"] = row.Phases.Report is { } rep ? Round(rep) : null,
-            ["scored"] = row.Scored, ["findings"] = row.Findings,
+            ["scored"] = row.Scored, ["findings"] = row.Findings, ["jit_seconds"] = Round(row.JitSeconds), ["jit_methods"] = row.JitMethods,
             ["script_loop_seconds"] = row.ScriptLoopSeconds is { } l ? Round(l) : null, ["script_process_seconds"] = row.ScriptProcessSeconds is { } ps ? Round(ps) : null,
             ["audit_vs_script"] = row.VsScriptLoop is { } v ? Round(v) : null, ["audit_vs_script_process"] = row.VsScriptProcess is { } vp ? Round(vp) : null,
             ["load_before"] = Round(row.LoadBefore), ["load_after"] = Round(row.LoadAfter),

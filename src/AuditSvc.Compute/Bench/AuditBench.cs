@@ -35,6 +35,12 @@ public sealed record AuditBenchRow(int Images, double AuditSeconds, PhaseTimes P
 
     public string? ScriptNote { get; init; }
 
+    /// <summary>Seconds the just-in-time compiler spent during the audit (all threads), and the methods it compiled: the
+    /// part of a first audit in a process that a second one does not pay.</summary>
+    public double JitSeconds { get; init; }
+
+    public long JitMethods { get; init; }
+
     /// <summary>Whole audit against the script's timed loop (decode, forward with hooks, top-n; no start-up): script seconds / audit seconds.</summary>
     public double? VsScriptLoop => ScriptLoopSeconds / AuditSeconds;
 
@@ -94,10 +100,16 @@ public static class AuditBench
             var outDir = Path.Combine(work, $"audit-{n}");
             double loadBefore = LoadAverage();
             log($"audit of {n} images ({Path.GetFileName(o.ModelPath)}, batch {chosen.BatchSize}, {chosen.InferenceThreads} threads), load {loadBefore:0.0}");
+            var jit = System.Runtime.JitInfo.GetCompilationTime();
+            long jitMethods = System.Runtime.JitInfo.GetCompiledMethodCount();
             var (seconds, phases, scored, findings) = Audit(o.ModelPath, load, manifest, outDir, options, ct);
-            var row = new AuditBenchRow(n, seconds, phases, scored, findings, loadBefore, LoadAverage());
+            var row = new AuditBenchRow(n, seconds, phases, scored, findings, loadBefore, LoadAverage())
+            {
+                JitSeconds = (System.Runtime.JitInfo.GetCompilationTime() - jit).TotalSeconds,
+                JitMethods = System.Runtime.JitInfo.GetCompiledMethodCount() - jitMethods,
+            };
             log(string.Create(CultureInfo.InvariantCulture, $"audit of {n}: {seconds:0.0} s ({n / seconds:0.0} images/s); intake {phases.Intake ?? 0:0.0}, pass {phases.Pass:0.0}, " +
-                $"analysis {phases.Analysis:0.0}, interventions {phases.Interventions:0.0}, report {phases.Report ?? 0:0.0} s"));
+                $"analysis {phases.Analysis:0.0}, interventions {phases.Interventions:0.0}, report {phases.Report ?? 0:0.0} s; JIT {row.JitSeconds:0.00} s for {row.JitMethods} methods"));
             if (o.TorchScript is not null)
             {
                 if (arch is null) row = row with { ScriptNote = "no eager-mode rebuild of this architecture" };
