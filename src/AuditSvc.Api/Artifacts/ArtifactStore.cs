@@ -2,21 +2,28 @@ using System.Security.Cryptography;
 using AuditSvc.Api.Hosting;
 using AuditSvc.Compute.ImageSets;
 using AuditSvc.Core;
+using AuditSvc.Data.Artifacts;
 using Microsoft.Extensions.Options;
 
 namespace AuditSvc.Api.Artifacts;
 
 /// <summary>A file stored under the artifact root by the SHA-256 of its content.</summary>
 /// <param name="Created">This upload put the blob in place (an identical earlier upload had not).</param>
-public sealed record StoredArtifact(string ContentHash, string RelativePath, string FullPath, long Length, bool Created = false);
+public sealed record StoredArtifact(string ContentHash, string RelativePath, string FullPath, long Length, bool Created = false)
+{
+    /// <summary>The content's lock (<see cref="ContentLocks"/>), held by this upload until its row is written or it is refused.</summary>
+    public IAsyncDisposable? Hold { get; init; }
+}
 
 /// <summary>
 /// Content-addressed files under the artifact root: an upload is streamed to a scratch file (this process's own
 /// <see cref="ScratchSpace"/>, swept when the process is gone) while it is hashed, then moved to
 /// blobs/sha256/ab/abcd….ext; a second upload of the same bytes finds it there and is dropped. Nothing is held in
-/// memory whole.
+/// memory whole. The content's lock is taken before the file is looked for and moved into place, and handed to the
+/// caller with the stored file (<see cref="StoredArtifact.Hold"/>), so that an identical upload, or the orphan sweep,
+/// waits until this one has written its row or removed what it alone put there.
 /// </summary>
-public sealed class ArtifactStore(IOptions<ServiceOptions> options, ScratchSpace scratch)
+public sealed class ArtifactStore(IOptions<ServiceOptions> options, ScratchSpace scratch, ContentLocks locks)
 {
     public string Root { get; } = Path.GetFullPath(options.Value.DataRoot);
 
@@ -25,6 +32,7 @@ public sealed class ArtifactStore(IOptions<ServiceOptions> options, ScratchSpace
         var temp = scratch.NewPath();
         string hash;
         long length = 0;
+        IAsyncDisposable? hold = null;
         try
         {
             using var sha = IncrementalHash.CreateHash(HashAlgorithmName.SHA256);
@@ -47,6 +55,7 @@ public sealed class ArtifactStore(IOptions<ServiceOptions> options, ScratchSpace
             var relative = Path.Combine("blobs", "sha256", hash[..2], hash + extension);
             var full = Path.Combine(Root, relative);
             Directory.CreateDirectory(Path.GetDirectoryName(full)!);
+            hold = await locks.HoldAsync(hash, ct);
             // Same bytes already stored: keep the first copy (a concurrent identical upload may win the move too).
             bool created = false;
             if (!File.Exists(full))
@@ -54,7 +63,14 @@ public sealed class ArtifactStore(IOptions<ServiceOptions> options, ScratchSpace
                 try { File.Move(temp, full, overwrite: false); created = true; }
                 catch (IOException) when (File.Exists(full)) { /* a concurrent identical upload won the move */ }
             }
-            return new StoredArtifact("sha256:" + hash, relative, full, length, created);
+            var stored = new StoredArtifact("sha256:" + hash, relative, full, length, created) { Hold = hold };
+            hold = null;
+            return stored;
+        }
+        catch
+        {
+            if (hold is not null) await hold.DisposeAsync();
+            throw;
         }
         finally
         {

@@ -5,8 +5,14 @@ using Microsoft.Net.Http.Headers;
 
 namespace AuditSvc.Api.Artifacts;
 
-/// <summary>The text fields of a multipart form and the one file it carried, already on disk.</summary>
-public sealed record UploadForm(IReadOnlyDictionary<string, string> Fields, StoredArtifact File);
+/// <summary>
+/// The text fields of a multipart form and the one file it carried, already on disk. Disposing it releases the file's
+/// content lock: dispose it after the row is written or the refused upload's files are discarded, never before.
+/// </summary>
+public sealed record UploadForm(IReadOnlyDictionary<string, string> Fields, StoredArtifact File) : IAsyncDisposable
+{
+    public ValueTask DisposeAsync() => File.Hold?.DisposeAsync() ?? ValueTask.CompletedTask;
+}
 
 /// <summary>
 /// Reads multipart/form-data section by section: the file part goes straight from the request stream to
@@ -35,6 +41,7 @@ public static class MultipartUpload
         {
             // The rest of the form was refused or the client went away: the blob this request stored goes too.
             store.Discard(file, null);
+            if (file?.Hold is { } hold) await hold.DisposeAsync();
             throw;
         }
     }

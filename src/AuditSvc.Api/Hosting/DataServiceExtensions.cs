@@ -1,5 +1,6 @@
 using AuditSvc.Api.Artifacts;
 using AuditSvc.Data;
+using AuditSvc.Data.Artifacts;
 using AuditSvc.Data.Audits;
 using AuditSvc.Data.ImageSets;
 using AuditSvc.Data.Migrations;
@@ -25,10 +26,13 @@ public static class DataServiceExtensions
         services.AddSingleton<AuditStore>();
         services.AddSingleton<ChunkStore>();
         services.AddSingleton<ReviewStore>();
+        services.AddSingleton<ContentLocks>();
         services.AddSingleton<ScratchSpace>();
         services.AddSingleton<ArtifactStore>();
+        services.AddSingleton<StoredOrphans>();
         services.AddHostedService<MigrateOnStart>();
         services.AddHostedService<ScratchSweeper>();
+        services.AddHostedService<OrphanSweeper>();
         return services;
     }
 

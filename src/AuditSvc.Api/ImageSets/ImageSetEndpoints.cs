@@ -53,7 +53,8 @@ public static class ImageSetEndpoints
     private static async Task<Created<ImageSetResponse>> Upload(HttpRequest request, ArtifactStore artifacts, IAuditEngine engine,
         ImageSetStore sets, ModelStore models, IOptions<ServiceOptions> options, CancellationToken ct)
     {
-        var form = await MultipartUpload.ReadAsync(request, "archive", ".zip", artifacts, options.Value.MaxUploadBytes, ct);
+        // Disposed last: the content's lock is held until the row is written or the refused upload's files are gone.
+        await using var form = await MultipartUpload.ReadAsync(request, "archive", ".zip", artifacts, options.Value.MaxUploadBytes, ct);
         string? createdFolder = null;
         try
         {

@@ -36,7 +36,8 @@ public static class ModelEndpoints
     private static async Task<Created<ModelResponse>> Upload(HttpRequest request, ArtifactStore artifacts, IAuditEngine engine,
         ModelStore models, IOptions<ServiceOptions> options, CancellationToken ct)
     {
-        var form = await MultipartUpload.ReadAsync(request, "model", ".onnx", artifacts, options.Value.MaxUploadBytes, ct);
+        // Disposed last: the content's lock is held until the row is written or the refused upload's files are gone.
+        await using var form = await MultipartUpload.ReadAsync(request, "model", ".onnx", artifacts, options.Value.MaxUploadBytes, ct);
         string? createdFolder = null;
         try
         {

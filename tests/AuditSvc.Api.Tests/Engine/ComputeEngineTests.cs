@@ -58,7 +58,8 @@ public sealed class ComputeEngineTests
             var model = Path.Combine(RepoRoot(), "seed-demo", "models", "fruit-cue.onnx");
             var options = Microsoft.Extensions.Options.Options.Create(new AuditSvc.Api.Hosting.ServiceOptions { DataRoot = root });
             using var scratch = new AuditSvc.Api.Artifacts.ScratchSpace(options);
-            var engine = new AuditSvc.Api.Engine.ComputeEngine(new AuditSvc.Api.Artifacts.ArtifactStore(options, scratch));
+            var engine = new AuditSvc.Api.Engine.ComputeEngine(new AuditSvc.Api.Artifacts.ArtifactStore(options, scratch,
+                new AuditSvc.Data.Artifacts.ContentLocks(Npgsql.NpgsqlDataSource.Create("Host=127.0.0.1;Port=1"))));
             var items = await engine.IntakeImageSetAsync(Path.GetDirectoryName(manifest)!, ["sound", "spotted", "mouldy"], default);
             var inputs = new AuditSvc.Api.Engine.AuditInputs(Guid.NewGuid(), model, "{}", Path.GetDirectoryName(manifest)!, items, "{}", 1,
                 Path.Combine(root, "work"));
