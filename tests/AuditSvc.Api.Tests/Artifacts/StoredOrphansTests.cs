@@ -85,7 +85,7 @@ public class StoredOrphansTests
         Task<HttpResponseMessage> upload;
         await using (await locks.HoldAsync(hash, CancellationToken.None))
         {
-            upload = PostAsync(client, bytes);
+            upload = Uploads.PostModelAsync(client, bytes, null, "waits");
             // Not a speed check: with the lock held the upload cannot register, however long we wait.
             Assert.NotSame(upload, await Task.WhenAny(upload, Task.Delay(TimeSpan.FromSeconds(2))));
             Assert.False(Directory.Exists(Path.Combine(svc.DataRoot, "models")), "nothing is placed while an identical upload holds the content");
@@ -118,15 +118,5 @@ public class StoredOrphansTests
             }
         }
         return ms.ToArray();
-    }
-
-    private static async Task<HttpResponseMessage> PostAsync(HttpClient client, byte[] bytes)
-    {
-        using var form = new MultipartFormDataContent();
-        form.Add(new StringContent("waits"), "name");
-        var file = new ByteArrayContent(bytes);
-        file.Headers.ContentType = new MediaTypeHeaderValue("application/octet-stream");
-        form.Add(file, "model", "model.onnx");
-        return await client.PostAsync("/api/models", form);
     }
 }

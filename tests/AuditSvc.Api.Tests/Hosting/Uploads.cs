@@ -21,6 +21,18 @@ internal static class Uploads
         return await response.Content.ReadFromJsonAsync<JsonElement>();
     }
 
+    /// <summary>A model upload as a client sends it, whatever the answer.</summary>
+    public static async Task<HttpResponseMessage> PostModelAsync(HttpClient client, byte[] bytes, string? recipe, string name)
+    {
+        using var form = new MultipartFormDataContent();
+        form.Add(new StringContent(name), "name");
+        if (recipe is not null) form.Add(new StringContent(recipe), "recipe");
+        var file = new ByteArrayContent(bytes);
+        file.Headers.ContentType = new MediaTypeHeaderValue("application/octet-stream");
+        form.Add(file, "model", "model.onnx");
+        return await client.PostAsync("/api/models", form);
+    }
+
     public static byte[] Zip(int perClass, params string[] classes)
     {
         using var ms = new MemoryStream();

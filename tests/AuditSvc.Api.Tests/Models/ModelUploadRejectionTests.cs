@@ -52,7 +52,7 @@ public class ModelUploadRejectionTests
             _ => throw new ArgumentOutOfRangeException(nameof(kind)),
         };
 
-        var response = await PostAsync(client, bytes, recipe, name);
+        var response = await Uploads.PostModelAsync(client, bytes, recipe, name);
 
         Assert.Equal(expected, (int)response.StatusCode);
         Assert.Equal("application/problem+json", response.Content.Headers.ContentType!.MediaType);
@@ -64,25 +64,14 @@ public class ModelUploadRejectionTests
     {
         await using var svc = await ServiceUnderTest.StartAsync(workers: 0, realEngine: true);
         using var client = await svc.ClientAsync("team-a");
-        Assert.Equal(HttpStatusCode.Created, (await PostAsync(client, DemoModel(), null, "kept")).StatusCode);
+        Assert.Equal(HttpStatusCode.Created, (await Uploads.PostModelAsync(client, DemoModel(), null, "kept")).StatusCode);
         var before = Files(svc.DataRoot);
 
-        Assert.Equal(HttpStatusCode.BadRequest, (await PostAsync(client, DemoModel(), null, new string('n', 201))).StatusCode);
-        Assert.Equal(HttpStatusCode.BadRequest, (await PostAsync(client, DemoModel(), "{\"mean\": \"x\"}", "other recipe")).StatusCode);
+        Assert.Equal(HttpStatusCode.BadRequest, (await Uploads.PostModelAsync(client, DemoModel(), null, new string('n', 201))).StatusCode);
+        Assert.Equal(HttpStatusCode.BadRequest, (await Uploads.PostModelAsync(client, DemoModel(), "{\"mean\": \"x\"}", "other recipe")).StatusCode);
 
         Assert.Equal(before, Files(svc.DataRoot));
         Assert.Equal(HttpStatusCode.OK, (await client.GetAsync("/api/models")).StatusCode);
-    }
-
-    private static async Task<HttpResponseMessage> PostAsync(HttpClient client, byte[] bytes, string? recipe, string name)
-    {
-        using var form = new MultipartFormDataContent();
-        form.Add(new StringContent(name), "name");
-        if (recipe is not null) form.Add(new StringContent(recipe), "recipe");
-        var file = new ByteArrayContent(bytes);
-        file.Headers.ContentType = new MediaTypeHeaderValue("application/octet-stream");
-        form.Add(file, "model", "model.onnx");
-        return await client.PostAsync("/api/models", form);
     }
 
     // What an upload may create: files (and links) under blobs, models and scratch, and (model, recipe) folders.
