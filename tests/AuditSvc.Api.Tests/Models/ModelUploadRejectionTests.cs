@@ -1,5 +1,4 @@
 using System.Net;
-using System.Net.Http.Headers;
 using AuditSvc.Api.Tests.Hosting;
 using AuditSvc.Cli.Commands;
 using AuditSvc.Data.Tests;
