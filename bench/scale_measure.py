@@ -207,6 +207,21 @@ def table(paths):
         by = r.get("cpu_seconds_by_phase")
         if by:
             out.append(f"| {count(r)} | " + " | ".join(f"{by[k]:.1f}" if k in by else "–" for k in PHASES) + f" | {r['cpu_seconds']:.1f} |")
+    for r in rows:
+        marks = r.get("memory_marks") or []
+        if not marks:
+            continue
+        out.append("")
+        out.append(f"Memory at the audit's own marks, {count(r)} images (AUDITSVC_MEMORY_TRACE; MiB; heap figures as of the last collection):")
+        out.append("")
+        out.append("| s | mark | resident | high-water | managed heap | large-object heap | committed | native (resident − committed) |")
+        out.append("|---|---|---|---|---|---|---|---|")
+        for m in marks:
+            f = m["mib"]
+            def g(k):
+                return f"{f[k]:.0f}" if k in f else "–"
+            native = f"{f['resident'] - f['committed']:.0f}" if "resident" in f and "committed" in f else "–"
+            out.append(f"| {m['seconds']:.0f} | {m['where']} | {g('resident')} | {g('high-water')} | {g('heap')} | {g('large')} | {g('committed')} | {native} |")
     print("\n".join(out))
 
 
