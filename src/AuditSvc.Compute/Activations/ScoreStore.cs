@@ -21,6 +21,7 @@ public sealed class ScoreStore : IUnitScores, IDisposable
     private readonly int _transposeBytes;
     private Half[]? _transposed;
     private long _memoryBytes;
+    private bool _disposed;
 
     /// <param name="transposeBytes">
     /// Size of the one buffer a block is transposed through on its way to disk, a slice of units at a time (at least
@@ -140,6 +141,7 @@ public sealed class ScoreStore : IUnitScores, IDisposable
 
     public void ReadUnits(int firstUnit, int count, Span<float> destination)
     {
+        ObjectDisposedException.ThrowIf(_disposed, this);
         destination.Fill(float.NaN);
         int blocks = (ItemCount + RowsPerBlock - 1) / RowsPerBlock;
         // One pooled buffer for the spilled blocks' slices: the scan asks for 32 units at a time, thousands of times.
@@ -184,6 +186,7 @@ public sealed class ScoreStore : IUnitScores, IDisposable
     /// <summary>Copies rows [start, start + count) as stored (float16), row-major; rows never written are NaN.</summary>
     public void ReadRows(int start, int count, Span<Half> destination)
     {
+        ObjectDisposedException.ThrowIf(_disposed, this);
         destination.Fill(Half.NaN);
         for (int item = start; item < start + count;)
         {
@@ -207,8 +210,17 @@ public sealed class ScoreStore : IUnitScores, IDisposable
 
     private string BlockPath(int block) => Path.Combine(_spillDir!, $"scores-{block:D6}.f16");
 
+    /// <summary>Lets go of the blocks in memory and deletes the spilled ones; reading afterwards throws.</summary>
     public void Dispose()
     {
+        lock (_gate)
+        {
+            _disposed = true;
+            _memory.Clear();
+            _memoryBytes = 0;
+            _spare.Clear();
+            _transposed = null;
+        }
         if (_spillDir is not null && Directory.Exists(_spillDir))
             foreach (var b in _onDisk) File.Delete(BlockPath(b));
     }

@@ -120,6 +120,10 @@ public static class AuditPipeline
         MemoryTrace.Mark("place cues done");
         analysis = AuditAnalysis.WithInferred(extended, act, analysis, policy);
         var targets = CueTargets.Choose(extended, act, analysis, places, policy);
+        // The scores matrix was read for the last time above (the interventions and the verdict use the peaks and the
+        // predictions): its blocks in memory, up to the scores limit, go back before the interventions build their
+        // second session. The callers' own Dispose after Finish is then a no-op.
+        (act.Scores as IDisposable)?.Dispose();
         MemoryTrace.Mark("analysis done");
         stage?.Invoke(AuditStage.Interventions, $"{analysis.Findings.Count} findings, {places.Count(p => p.Attribute >= 0)} place cues; cue regions and paired interventions for {targets.Count} cues");
         var clock = Stopwatch.StartNew();

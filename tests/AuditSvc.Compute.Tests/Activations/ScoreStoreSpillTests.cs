@@ -93,4 +93,16 @@ public sealed class ScoreStoreSpillTests
         // Without a spill folder (the service's chunks) the whole matrix is held.
         Assert.Equal(200_000L * 5000 * 2, new ScoreStore(200_000, 5000).MostHeldBytes);
     }
+
+    [Fact]
+    public void ReadUnits_AfterDispose_ThrowsInsteadOfAnsweringNaN()
+    {
+        var store = new ScoreStore(10, 3);
+        store.WriteRow(0, [1f, 2f, 3f]);
+        store.Dispose();
+
+        Assert.Throws<ObjectDisposedException>(() => store.ReadUnits(0, 1, new float[10]));
+        Assert.Throws<ObjectDisposedException>(() => store.ReadRows(0, 1, new Half[3]));
+        store.Dispose(); // twice is harmless (the pipeline lets go of the scores before its callers do)
+    }
 }
