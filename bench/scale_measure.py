@@ -58,6 +58,19 @@ def folder_bytes(path):
     return total
 
 
+def memory_mark(line):
+    """One AUDITSVC_MEMORY_TRACE line: where, and its figures in MiB by name (resident, high-water, managed, large …)."""
+    where, _, rest = line[len("[memory] "):].strip().partition(": ")
+    figures = {}
+    for part in rest.replace("(", ",").replace(")", ",").replace(";", ",").split(","):
+        words = part.split()
+        if len(words) >= 2 and words[-1].replace(".", "", 1).isdigit() and not words[-2].isdigit():
+            figures[" ".join(w for w in words[:-1] if w not in ("after", "last", "collection:", "so", "far"))] = float(words[-1])
+        elif len(words) >= 3 and words[-1] == "MiB" and words[-2].isdigit():
+            figures[" ".join(words[:-2])] = float(words[-2])
+    return {"where": where, "mib": figures}
+
+
 def out_dir(cmd):
     return cmd[cmd.index("--out") + 1] if "--out" in cmd else "audit-out"
 
@@ -70,6 +83,7 @@ def run(result_path, cmd):
     peaks = {}
     spill_peak = [0]
     marks = [("intake", 0.0)]  # (phase, CPU seconds of the process when it began)
+    memory_marks = []
     lock = threading.Lock()
 
     def read_stderr():
@@ -77,9 +91,16 @@ def run(result_path, cmd):
             now = time.monotonic() - start
             sys.stdout.write(f"[{now:8.1f} s] {line}")
             sys.stdout.flush()
-            if line.startswith("["):
+            if line.startswith("[memory] "):
+                # AUDITSVC_MEMORY_TRACE's marks: kept with the time they came, never a phase.
+                with lock:
+                    memory_marks.append({"seconds": round(now, 1), **memory_mark(line)})
+                continue
+            if line.startswith("[") and "]" in line:
                 name = line[1:line.index("]")]
-                name = name if name in PHASES else "report" if name == "done" else name
+                if name not in PHASES and name != "done":
+                    continue
+                name = "report" if name == "done" else name
                 cpu = cpu_seconds(proc.pid)
                 with lock:
                     phase["name"] = name
@@ -141,6 +162,7 @@ def run(result_path, cmd):
         "findings": len(audit.get("findings") or []),
         "verdict": audit.get("verdict"),
         "load_after": load,
+        "memory_marks": memory_marks,
     }
     with open(result_path, "w") as f:
         json.dump(result, f, indent=1)
@@ -185,6 +207,21 @@ def table(paths):
         by = r.get("cpu_seconds_by_phase")
         if by:
             out.append(f"| {count(r)} | " + " | ".join(f"{by[k]:.1f}" if k in by else "–" for k in PHASES) + f" | {r['cpu_seconds']:.1f} |")
+    for r in rows:
+        marks = r.get("memory_marks") or []
+        if not marks:
+            continue
+        out.append("")
+        out.append(f"Memory at the audit's own marks, {count(r)} images (AUDITSVC_MEMORY_TRACE; MiB; heap figures as of the last collection):")
+        out.append("")
+        out.append("| s | mark | resident | high-water | managed heap | large-object heap | committed | native (resident − committed) |")
+        out.append("|---|---|---|---|---|---|---|---|")
+        for m in marks:
+            f = m["mib"]
+            def g(k):
+                return f"{f[k]:.0f}" if k in f else "–"
+            native = f"{f['resident'] - f['committed']:.0f}" if "resident" in f and "committed" in f else "–"
+            out.append(f"| {m['seconds']:.0f} | {m['where']} | {g('resident')} | {g('high-water')} | {g('heap')} | {g('large')} | {g('committed')} | {native} |")
     print("\n".join(out))
 
 

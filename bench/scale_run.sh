@@ -8,6 +8,9 @@
 #     SIZES  comma-separated image counts, default 1000,10000,50000,200000 (each at most 1,000,000)
 #     MODEL  default tests/models/wide-5000-units.onnx (random weights; tests/models/make_models.py builds it)
 #   AUDITSVC_SCALE_WORK  work folder (default .tmp/scale, ignored by git): image sets, audits, results
+#   AUDITSVC_SCALE_CLI   the built auditsvc.dll to run (default the Release build; a copy lets you rebuild meanwhile)
+#   AUDITSVC_MEMORY_TRACE  1 by default here: the audit prints where its memory sits at each phase boundary
+#                          (kept in the results as memory_marks); 0 turns it off, collect forces a full collection first
 #
 # The image set is the invented demo scenario (`auditsvc demo-set`), made once in parts of 50,000 images with
 # seeds 7, 8, 9, … (image i of a part depends only on its seed and i) and kept for later runs; the set of N
@@ -17,7 +20,8 @@ set -euo pipefail
 sizes=${1:-1000,10000,50000,200000}
 model=${2:-tests/models/wide-5000-units.onnx}
 work=${AUDITSVC_SCALE_WORK:-.tmp/scale}
-cli=src/AuditSvc.Cli/bin/Release/net10.0/auditsvc.dll
+cli=${AUDITSVC_SCALE_CLI:-src/AuditSvc.Cli/bin/Release/net10.0/auditsvc.dll}
+export AUDITSVC_MEMORY_TRACE=${AUDITSVC_MEMORY_TRACE:-1}
 here=$(cd "$(dirname "$0")" && pwd)
 part=50000
 labels=sound,spotted,mouldy  # the demo scenario's classes; the scale model has three outputs and no recipe file

@@ -25,6 +25,7 @@ internal static class AuditRunner
             // audit.json carries the report's time too (the report shows the phases before it).
             var result = run.Result with { Phases = clock.Times(clock.Seconds(AuditStage.Intake), drawing.Elapsed.TotalSeconds) };
             WriteWhole(outDir, (html, report), (json, AuditJson.Serialize(result) + "\n"));
+            MemoryTrace.Mark("report written");
             PrintSummary(result, json, html);
             return result.Verdict == "pass" ? ExitCodes.Pass : ExitCodes.Block;
         }

@@ -1,4 +1,5 @@
 using System.Diagnostics;
+using AuditSvc.Compute.Audits;
 using AuditSvc.Compute.Imaging;
 using AuditSvc.Core.Activations;
 using AuditSvc.Core.ImageSets;
@@ -99,6 +100,7 @@ public sealed class ActivationPass : IDisposable
                 InferAndCollect(batch, batch.Input.AsMemory(0, batch.Count * slot), sink);
                 done += batch.Count;
                 sink.Store.SpillIfNeeded(start + done);
+                if (MemoryTrace.Enabled && done / 25_000 != (done - batch.Count) / 25_000) MemoryTrace.Mark($"activation run at {done} images, {sink.Store.SpilledBlocks} blocks spilled");
                 progress?.Report(new PassProgress(done, count, done / Math.Max(1e-9, clock.Elapsed.TotalSeconds)));
             }
         }

@@ -106,6 +106,10 @@ internal sealed class PassCollector
         for (int u = 0; u < row.Length; u++) row[u] = Math.Clamp(row[u], -max, max);
     }
 
-    public ActivationResult Result(IReadOnlyList<LayerSlice> layers) =>
-        new(layers, Store, Top, Scored, Predicted, Probabilities, ClassCount, Problems);
+    public ActivationResult Result(IReadOnlyList<LayerSlice> layers)
+    {
+        // Every row is in: the arrays kept for later blocks and the transposition buffer are garbage from here on.
+        Store.ReleaseSpare();
+        return new(layers, Store, Top, Scored, Predicted, Probabilities, ClassCount, Problems);
+    }
 }

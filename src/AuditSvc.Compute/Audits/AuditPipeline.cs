@@ -32,18 +32,23 @@ public static class AuditPipeline
     public static AuditRun Run(AuditRequest request, IProgress<PassProgress>? progress = null, Action<AuditStage, string>? stage = null, CancellationToken ct = default)
     {
         stage?.Invoke(AuditStage.Intake, "reading the model and the image set");
+        MemoryTrace.Mark("start");
         var model = ModelIntake.Load(request.ModelPath, request.ModelOptions);
+        MemoryTrace.Mark("model intake done");
         Directory.CreateDirectory(request.WorkDirectory);
         var table = SetIntake.Read(request.DataPath, model.Plan.Recipe.ClassNames, request.WorkDirectory, request.ImagesRoot);
+        MemoryTrace.Mark($"set intake done ({table.Items.Count} images)");
         CheckLabels(table, model);
         PolicyFile.CheckAttributes(request.Policy, table.Attributes.Select(a => a.Name).ToList(), "policy");
         var passOptions = request.Pass with { SpillDirectory = request.Pass.SpillDirectory ?? Path.Combine(request.WorkDirectory, "scores") };
         using var pass = new ActivationPass(model.Plan, model.RewrittenModel, passOptions);
+        MemoryTrace.Mark("pass session built");
         stage?.Invoke(AuditStage.Pass, $"{table.Items.Count} images, {pass.Layers.Sum(l => l.Count)} units in {pass.Layers.Count} layers, batch {pass.Options.BatchSize}");
         var clock = Stopwatch.StartNew();
         // Small sets keep their decoded images for the interventions, which would otherwise decode most of them again.
         var act = pass.Run(table, progress, ct, keepFittedBytes: ImageRuns.CacheBytes);
         double passSeconds = clock.Elapsed.TotalSeconds;
+        MemoryTrace.Mark("activation run done");
         try
         {
             return new AuditRun(Finish(pass, table, model, act, request.Policy, passSeconds, stage, ct), table, model);
@@ -111,13 +116,21 @@ public static class AuditPipeline
             throw new AuditInputException(table.Report.Source, $"no image could be pushed through the model ({act.Problems.Count} failed; first: {act.Problems.FirstOrDefault()?.File}: {act.Problems.FirstOrDefault()?.Reason})");
         stage?.Invoke(AuditStage.Analysis, "rank tests of every unit against every attribute value");
         var analysis = AuditAnalysis.Analyze(table, model.Plan, act, policy, ct);
+        MemoryTrace.Mark("rank tests done");
         var (extended, places) = PlaceCues.Infer(table, model.Plan, act, analysis, policy.MinGroupSize);
+        MemoryTrace.Mark("place cues done");
         analysis = AuditAnalysis.WithInferred(extended, act, analysis, policy);
         var targets = CueTargets.Choose(extended, act, analysis, places, policy);
+        // The scores matrix was read for the last time above (the interventions and the verdict use the peaks and the
+        // predictions): its blocks in memory, up to the scores limit, go back before the interventions build their
+        // second session. The callers' own Dispose after Finish is then a no-op.
+        (act.Scores as IDisposable)?.Dispose();
+        MemoryTrace.Mark("analysis done");
         stage?.Invoke(AuditStage.Interventions, $"{analysis.Findings.Count} findings, {places.Count(p => p.Attribute >= 0)} place cues; cue regions and paired interventions for {targets.Count} cues");
         var clock = Stopwatch.StartNew();
         using var runs = new ImageRuns(pass);
         var evidence = Interventions.Run(runs, extended, act, targets, policy, ct);
+        MemoryTrace.Mark("interventions done");
         table = extended;
         var inputs = new AuditInputs(table, model.Plan, act, analysis, evidence, places, policy, passSeconds, clock.Elapsed.TotalSeconds, runs.Runs,
             pass.Options.BatchSize, DateTimeOffset.UtcNow)
@@ -127,7 +140,9 @@ public static class AuditPipeline
             Reduce = pass.Options.ReduceInGraph == false ? "full-maps" : "in-graph",
         };
         stage?.Invoke(AuditStage.Done, "verdict");
-        return AuditAssembler.Build(inputs);
+        var result = AuditAssembler.Build(inputs);
+        MemoryTrace.Mark("verdict");
+        return result;
     }
 
     private static void CheckLabels(ItemTable table, LoadedModel model)

@@ -14,6 +14,34 @@ public class ChunkResultTests
     private static readonly string Model = Path.Combine(AppContext.BaseDirectory, "demo-models", "fruit-cue.onnx");
 
     [Fact]
+    public void Finish_ScoresLetGoBeforeTheInterventions_AndTheAuditStillCompletes()
+    {
+        var dir = Path.Combine(Path.GetTempPath(), "auditsvc-release-" + Guid.NewGuid().ToString("N"));
+        try
+        {
+            var table = WriteSet(dir);
+            var model = ModelIntake.Load(Model);
+            using var pass = new ActivationPass(model.Plan, model.RewrittenModel, new PassOptions { BatchSize = 16 });
+            var act = pass.Run(table, null, CancellationToken.None);
+            Exception? readDuringInterventions = null;
+
+            var result = AuditPipeline.Finish(pass, table, model, act, new AuditPolicy(), 1.0, (stage, _) =>
+            {
+                if (stage == AuditStage.Interventions)
+                    readDuringInterventions = Record.Exception(() => act.Scores.ReadUnits(0, 1, new float[table.Items.Count]));
+            });
+
+            // The scores matrix (up to the scores limit in memory) is gone before the interventions build their session.
+            Assert.IsType<ObjectDisposedException>(readDuringInterventions);
+            Assert.NotEmpty(result.Findings);
+        }
+        finally
+        {
+            Directory.Delete(dir, recursive: true);
+        }
+    }
+
+    [Fact]
     public async Task FinishChunks_ChunksThroughStreams_EqualsOneProcessRun()
     {
         var dir = Path.Combine(Path.GetTempPath(), "auditsvc-chunks-" + Guid.NewGuid().ToString("N"));

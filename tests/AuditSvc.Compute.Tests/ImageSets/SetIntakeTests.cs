@@ -38,6 +38,8 @@ public class SetIntakeTests
         Assert.Equal(-1, t.Items[1].AttributeValues[0]);
         Assert.Equal(1, t.Items[2].Label);
         Assert.Equal(64, t.Items[0].Sha256.Length);
+        Assert.Equal(Convert.ToHexStringLower(System.Security.Cryptography.SHA256.HashData(File.ReadAllBytes(Path.Combine(dir, "a.png")))), t.Items[0].Sha256);
+        Assert.Equal(Path.GetFullPath(Path.Combine(dir, "c.png")), t.Items[2].Path);
     }
 
     [Fact]
