@@ -30,10 +30,9 @@ public sealed class ModelRunner : IDisposable
         };
         // Spinning keeps a core busy between kernels; when decoders share the cores it takes their time.
         options.AddSessionConfigEntry("session.intra_op.allow_spinning", spinning ? "1" : "0");
+        // No collection here: the service builds a runner per chunk job, and a blocking compacting collection would
+        // pause the whole process each time. The intake and the command line's audit give memory back once, where it pays.
         OrtEnvironment.EnsureQuiet();
-        // The runtime's optimiser needs several times the model's size while it builds the session: give it back
-        // what earlier rewrites left (a parsed copy of the model, say) first, rather than stacking on top of it.
-        OrtRunner.ReleaseTransient();
         _session = new InferenceSession(onnx, options);
         _inputNames = [plan.InputName];
         _outputNames = [plan.OutputName, .. reduced ? ReducedGraph.OutputNames(plan.ReadLayers) : plan.ReadLayers.Select(l => l.ReadName)];

@@ -31,7 +31,8 @@ public static class IntakeMemory
         Step(steps, clock, "intake");
         PeakMemory.Reset();
         using var activation = new ActivationPass(model.Plan, model.RewrittenModel, pass ?? new PassOptions());
-        Step(steps, clock, "pass sessions built");
+        activation.Prepare();
+        Step(steps, clock, "pass session built");
         PeakMemory.Reset();
         int batch = activation.Options.BatchSize, slot = activation.Preprocessor.SlotLength;
         var zeros = new float[(long)batch * slot];
