@@ -36,7 +36,7 @@ public sealed class ActivationPass : IDisposable
         // interventions read full maps of single units.
         _fullRunner = new Lazy<ModelRunner>(() => new ModelRunner(plan, onnx, threads, Options.Spinning ?? false));
         _runner = inGraph
-            ? new Lazy<ModelRunner>(() => new ModelRunner(plan, ReducedGraph.Rewrite(onnx, plan.ReadLayers), threads, Options.Spinning ?? false, reduced: true))
+            ? new Lazy<ModelRunner>(() => new ModelRunner(plan, file => ReducedGraph.Write(onnx, plan.ReadLayers, file), threads, Options.Spinning ?? false, reduced: true))
             : _fullRunner;
         // The recipe has one mean per input channel (the intake checks it against the graph's input).
         _pre = new Preprocessor(plan.Recipe) { Channels = plan.Recipe.Mean.Length };

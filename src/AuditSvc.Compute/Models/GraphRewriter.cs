@@ -69,7 +69,7 @@ public static class GraphRewriter
         IReadOnlyDictionary<string, FloatTensor> together;
         try
         {
-            together = OrtRunner.Run(batched.ToByteArray(), inputName, noise);
+            together = OrtRunner.Run(batched, inputName, noise);
         }
         catch (OnnxRuntimeException)
         {
@@ -78,7 +78,7 @@ public static class GraphRewriter
         // The batched session is gone before the single one is built: one copy of the weights in the runtime at a time.
         var ones = Enumerable.Range(0, batch)
             .Select(b => new FloatTensor([1, .. imageShape[1..]], noise.Data.AsSpan(b * per, per).ToArray())).ToList();
-        var singles = OrtRunner.RunEach(single.ToByteArray(), inputName, ones);
+        var singles = OrtRunner.RunEach(single, inputName, ones);
         for (int b = 0; b < batch; b++)
         {
             foreach (var (name, t) in singles[b])
