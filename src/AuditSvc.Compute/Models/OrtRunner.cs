@@ -34,10 +34,26 @@ public static partial class OrtRunner
     internal static IReadOnlyDictionary<string, FloatTensor> Run(ModelProto model, string inputName, FloatTensor input) =>
         RunEach(options => SessionFiles.Build(model.WriteTo, options), inputName, [input], null, GraphOptimizationLevel.ORT_DISABLE_ALL)[0];
 
-    /// <summary><see cref="RunEach(byte[], string, IReadOnlyList{FloatTensor}, IReadOnlyList{string}?, GraphOptimizationLevel)"/>
-    /// on a model not yet serialised: the runtime reads it from a temporary file.</summary>
-    internal static IReadOnlyList<IReadOnlyDictionary<string, FloatTensor>> RunEach(ModelProto model, string inputName, IReadOnlyList<FloatTensor> inputs) =>
-        RunEach(options => SessionFiles.Build(model.WriteTo, options), inputName, inputs, null, GraphOptimizationLevel.ORT_DISABLE_ALL);
+    /// <summary>A float output of a run, seen while its value is alive.</summary>
+    internal delegate void OutputVisitor(int input, string name, ReadOnlySpan<float> data);
+
+    /// <summary>
+    /// Runs each of <paramref name="inputs"/> through one session over <paramref name="model"/> (read from a temporary
+    /// file) and shows every float output to <paramref name="visit"/> without copying it out.
+    /// </summary>
+    internal static void Visit(ModelProto model, string inputName, IReadOnlyList<FloatTensor> inputs, OutputVisitor visit)
+    {
+        ArgumentNullException.ThrowIfNull(inputs);
+        WithSession(options => SessionFiles.Build(model.WriteTo, options), GraphOptimizationLevel.ORT_DISABLE_ALL, session =>
+        {
+            for (int i = 0; i < inputs.Count; i++)
+            {
+                int at = i;
+                Fetch(session, inputName, inputs[i], session.OutputNames, (name, r) => visit(at, name, r.GetTensorDataAsSpan<float>()));
+            }
+            return 0;
+        });
+    }
 
     private static IReadOnlyList<IReadOnlyDictionary<string, FloatTensor>> RunEach(
         Func<SessionOptions, InferenceSession> build, string inputName, IReadOnlyList<FloatTensor> inputs, IReadOnlyList<string>? outputNames,
