@@ -63,10 +63,11 @@ internal static class InspectCommand
     internal static string ToText(IntakeMemoryResult r)
     {
         var w = new StringWriter(CultureInfo.InvariantCulture);
-        w.WriteLine($"model    {r.Model} ({r.ModelFileBytes >> 20} MB on disk); {r.StartBytes >> 20} MB resident before the intake");
+        w.WriteLine($"model    {r.Model} ({r.ModelFileBytes >> 20} MB on disk); {r.StartBytes >> 20} MB resident before the intake, {r.RuntimeBytes >> 20} MB with ONNX Runtime loaded");
         w.WriteLine("step                                   peak MB  resident MB  seconds");
         foreach (var s in r.Steps) w.WriteLine($"{s.Step,-38} {s.PeakBytes >> 20,7}  {s.ResidentBytes >> 20,11}  {s.Seconds,7:0.00}");
-        w.WriteLine($"highest peak {r.PeakBytes >> 20} MB = {(double)r.PeakBytes / r.ModelFileBytes:0.0}x the model file");
+        w.WriteLine($"highest peak {r.PeakBytes >> 20} MB = {(double)r.PeakBytes / r.ModelFileBytes:0.0}x the model file; " +
+            $"above the runtime {r.ModelPeakBytes >> 20} MB = {(double)r.ModelPeakBytes / r.ModelFileBytes:0.0}x the model file");
         return w.ToString();
     }
 

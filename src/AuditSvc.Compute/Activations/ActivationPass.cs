@@ -20,7 +20,8 @@ public readonly record struct PassProgress(int Done, int Total, double ImagesPer
 /// </summary>
 public sealed class ActivationPass : IDisposable
 {
-    private readonly ModelRunner _runner;
+    private readonly ModelPlan _plan;
+    private readonly Lazy<ModelRunner> _runner;
     private readonly Lazy<ModelRunner> _fullRunner;
     private readonly Preprocessor _pre;
     private readonly IReadOnlyList<LayerSlice> _layers;
@@ -29,17 +30,20 @@ public sealed class ActivationPass : IDisposable
 
     public ActivationPass(ModelPlan plan, byte[] onnx, PassOptions options)
     {
+        _plan = plan;
         var single = plan.Batch == BatchMode.ConcurrentSingle;
         var probe = new Preprocessor(plan.Recipe);
         Options = options.Resolve(probe.SlotLength);
         int threads = single ? 1 : Options.InferenceThreads;
         bool inGraph = Options.ReduceInGraph ?? true;
+        // Both sessions are made when first run: a merge reads only the layers and options, and runs neither; the
+        // interventions read full maps of single units.
+        _fullRunner = new Lazy<ModelRunner>(() => new ModelRunner(plan, onnx, threads, Options.Spinning ?? false));
         _runner = inGraph
-            ? new ModelRunner(plan, ReducedGraph.Rewrite(onnx, plan.ReadLayers), threads, Options.Spinning ?? false, reduced: true)
-            : new ModelRunner(plan, onnx, threads, Options.Spinning ?? false);
-        // Interventions read full maps of single units; their session is made only when they ask.
-        _fullRunner = inGraph ? new Lazy<ModelRunner>(() => new ModelRunner(plan, onnx, threads, Options.Spinning ?? false)) : new Lazy<ModelRunner>(_runner);
-        _pre = new Preprocessor(plan.Recipe) { Channels = _runner.Channels };
+            ? new Lazy<ModelRunner>(() => new ModelRunner(plan, file => ReducedGraph.Write(onnx, plan.ReadLayers, file), threads, Options.Spinning ?? false, reduced: true))
+            : _fullRunner;
+        // The recipe has one mean per input channel (the intake checks it against the graph's input).
+        _pre = new Preprocessor(plan.Recipe) { Channels = plan.Recipe.Mean.Length };
         var slices = new List<LayerSlice>();
         int first = 0;
         foreach (var layer in plan.ReadLayers)
@@ -60,7 +64,7 @@ public sealed class ActivationPass : IDisposable
     /// The pass's own runner, for runs that read only the class output: the graph whose predictions the pass recorded,
     /// and no second session to build.
     /// </summary>
-    public ModelRunner ClassRunner => _runner;
+    public ModelRunner ClassRunner => _runner.Value;
 
     public Preprocessor Preprocessor => _pre;
 
@@ -134,7 +138,7 @@ public sealed class ActivationPass : IDisposable
     }
 
     private PassCollector NewCollector(int items, Func<int, string> fileOf) =>
-        new(items, _units, _runner.Plan.ClassCount, Options.TopN > 0 ? Options.TopN : TopN.DefaultN(items), Options, fileOf);
+        new(items, _units, _plan.ClassCount, Options.TopN > 0 ? Options.TopN : TopN.DefaultN(items), Options, fileOf);
 
     private void Decode(string path, PassBatch batch, int i)
     {
@@ -170,25 +174,26 @@ public sealed class ActivationPass : IDisposable
     {
         int slot = _pre.SlotLength;
         var probs = sink.Probabilities;
-        if (_runner.Plan.Batch == BatchMode.ConcurrentSingle)
+        var runner = _runner.Value;
+        if (_plan.Batch == BatchMode.ConcurrentSingle)
             Parallel.For(0, batch.Count, new ParallelOptions { MaxDegreeOfParallelism = Options.InferenceThreads }, i =>
-                _runner.Run(input.Slice(i * slot, slot), 1, (cls, layers) => Reduce(batch, i, 1, cls, layers, probs, parallel: false)));
+                runner.Run(input.Slice(i * slot, slot), 1, (cls, layers) => Reduce(batch, i, 1, cls, layers, probs, parallel: false)));
         else
-            _runner.Run(input, batch.Count, (cls, layers) => Reduce(batch, 0, batch.Count, cls, layers, probs, Options.InferenceThreads > 1));
+            runner.Run(input, batch.Count, (cls, layers) => Reduce(batch, 0, batch.Count, cls, layers, probs, Options.InferenceThreads > 1));
         sink.Collect(batch);
     }
 
     /// <summary>Unit scores and peaks of images [offset, offset + count) of a batch, and their class probabilities.</summary>
     private void Reduce(PassBatch batch, int offset, int count, ReadOnlySpan<float> cls, IReadOnlyList<OrtValue> layers, float[] probs, bool parallel)
     {
-        int k = _runner.Plan.ClassCount;
+        int k = _plan.ClassCount;
         for (int i = 0; i < count; i++)
         {
             var dest = probs.AsSpan((int)((long)batch.Items[offset + i] * k), k);
             cls.Slice(i * k, k).CopyTo(dest);
-            if (!_runner.Plan.OutputIsProbabilities) Softmax(dest);
+            if (!_plan.OutputIsProbabilities) Softmax(dest);
         }
-        if (_runner.Reduced)
+        if (_runner.Value.Reduced)
         {
             int o = 0;
             foreach (var slice in _layers)
@@ -223,10 +228,16 @@ public sealed class ActivationPass : IDisposable
         _kept = null;
     }
 
+    /// <summary>Builds the pass's session now rather than at the first run (to measure it, or to fail early).</summary>
+    public void Prepare() => _ = _runner.Value;
+
+    /// <summary>Which sessions exist: the pass's (in-graph maxima, or full maps when it reads them) and the full maps'.</summary>
+    internal (bool Pass, bool FullMaps) SessionsBuilt => (_runner.IsValueCreated, _fullRunner.IsValueCreated);
+
     public void Dispose()
     {
         ReleaseKept();
-        if (_fullRunner.IsValueCreated && _fullRunner.Value != _runner) _fullRunner.Value.Dispose();
-        _runner.Dispose();
+        if (_runner.IsValueCreated && _runner != _fullRunner) _runner.Value.Dispose();
+        if (_fullRunner.IsValueCreated) _fullRunner.Value.Dispose();
     }
 }

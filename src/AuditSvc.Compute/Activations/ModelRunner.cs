@@ -19,6 +19,18 @@ public sealed class ModelRunner : IDisposable
     /// <param name="reduced">The model was rewritten by <see cref="ReducedGraph.Rewrite"/>: its layer outputs are
     /// [max, argmax] pairs for 4-D layers (see <see cref="ReducedGraph.OutputNames"/>).</param>
     public ModelRunner(ModelPlan plan, byte[] onnx, int threads, bool spinning = true, bool reduced = false)
+        : this(plan, options => new InferenceSession(onnx, options), threads, spinning, reduced)
+    {
+    }
+
+    /// <summary>A runner over the model that <paramref name="writeModel"/> writes, read by the runtime from a
+    /// temporary file (<see cref="SessionFiles"/>) rather than from an array in memory.</summary>
+    internal ModelRunner(ModelPlan plan, Action<Stream> writeModel, int threads, bool spinning = true, bool reduced = false)
+        : this(plan, options => SessionFiles.Build(writeModel, options), threads, spinning, reduced)
+    {
+    }
+
+    private ModelRunner(ModelPlan plan, Func<SessionOptions, InferenceSession> build, int threads, bool spinning, bool reduced)
     {
         Plan = plan;
         using var options = new SessionOptions
@@ -30,11 +42,10 @@ public sealed class ModelRunner : IDisposable
         };
         // Spinning keeps a core busy between kernels; when decoders share the cores it takes their time.
         options.AddSessionConfigEntry("session.intra_op.allow_spinning", spinning ? "1" : "0");
+        // No collection here: the service builds a runner per chunk job, and a blocking compacting collection would
+        // pause the whole process each time. The intake and the command line's audit give memory back once, where it pays.
         OrtEnvironment.EnsureQuiet();
-        // The runtime's optimiser needs several times the model's size while it builds the session: give it back
-        // what earlier rewrites left (a parsed copy of the model, say) first, rather than stacking on top of it.
-        OrtRunner.ReleaseTransient();
-        _session = new InferenceSession(onnx, options);
+        _session = build(options);
         _inputNames = [plan.InputName];
         _outputNames = [plan.OutputName, .. reduced ? ReducedGraph.OutputNames(plan.ReadLayers) : plan.ReadLayers.Select(l => l.ReadName)];
         Reduced = reduced;

@@ -1,3 +1,4 @@
+using AuditSvc.Compute.Models;
 using AuditSvc.Core.Models;
 using Google.Protobuf;
 using Onnx;
@@ -24,11 +25,93 @@ public static class ReducedGraph
     /// ArgMax, then GatherElements (opset 11 and later) or ReduceMax. Both give the same values and positions.</param>
     public static byte[] Rewrite(byte[] exposed, IReadOnlyList<LayerInfo> read, bool fusePeaks = true)
     {
+        ArgumentNullException.ThrowIfNull(exposed);
+        if (Splice.Plan(exposed, read, fusePeaks) is not { } splice)
+        {
+            using var parsed = new MemoryStream();
+            WriteParsed(exposed, read, parsed, fusePeaks);
+            return parsed.ToArray();
+        }
+        // Written into an array of its exact size: one copy of the model, not a stream's buffer and then its copy.
+        var bytes = new byte[checked((int)splice.Length)];
+        using (var into = new MemoryStream(bytes)) splice.WriteTo(exposed, into);
+        return bytes;
+    }
+
+    /// <summary>
+    /// <see cref="Rewrite"/> written to <paramref name="destination"/>. The weights are not parsed: the exposed model's
+    /// bytes are copied through, with its graph outputs left out and the reduction's nodes, initializers and outputs
+    /// appended to the graph (protobuf joins repeated fields met in several places), so no copy of the weights is made
+    /// on the way.
+    /// </summary>
+    public static void Write(byte[] exposed, IReadOnlyList<LayerInfo> read, Stream destination, bool fusePeaks = true)
+    {
+        ArgumentNullException.ThrowIfNull(exposed);
+        ArgumentNullException.ThrowIfNull(destination);
+        if (Splice.Plan(exposed, read, fusePeaks) is { } splice) splice.WriteTo(exposed, destination);
+        else WriteParsed(exposed, read, destination, fusePeaks);
+    }
+
+    // Where the exposed model's fields lie, what goes in place of its graph outputs, and the result's length.
+    private sealed record Splice(List<WireFields.Field> Top, List<WireFields.Field> Graph, byte[] Tail, long GraphLength)
+    {
+        private static readonly uint GraphTag = WireFormat.MakeTag(ModelProto.GraphFieldNumber, WireFormat.WireType.LengthDelimited);
+
+        public long Length => Top.Where(f => f.Number != ModelProto.GraphFieldNumber).Sum(f => (long)f.Length)
+            + CodedOutputStream.ComputeRawVarint32Size(GraphTag) + CodedOutputStream.ComputeLengthSize((int)GraphLength) + GraphLength;
+
+        // Null when the bytes are not laid out as our own writer lays them out (groups, a graph in pieces).
+        public static Splice? Plan(byte[] exposed, IReadOnlyList<LayerInfo> read, bool fusePeaks)
+        {
+            var top = WireFields.Read(exposed, 0, exposed.Length);
+            var graphs = top.Where(f => f.Number == ModelProto.GraphFieldNumber).ToList();
+            if (top.Any(f => f.WireType == WireFields.Group) || graphs.Count != 1 || graphs[0].WireType != WireFields.LengthDelimited) return null;
+            var inGraph = WireFields.Read(exposed, graphs[0].ValueStart, graphs[0].ValueLength);
+            if (inGraph.Any(f => f.WireType == WireFields.Group)) return null;
+            var opsets = top.Where(f => f.Number == ModelProto.OpsetImportFieldNumber)
+                .Select(f => OperatorSetIdProto.Parser.ParseFrom(exposed, f.ValueStart, f.ValueLength));
+            var outputs = inGraph.Where(f => f.Number == GraphProto.OutputFieldNumber).ToList();
+            var tail = Additions(outputs.Select(f => ValueInfoProto.Parser.ParseFrom(exposed, f.ValueStart, f.ValueLength)).ToList(),
+                Opset(opsets), read, fusePeaks).ToByteArray();
+            long length = (long)graphs[0].ValueLength - outputs.Sum(f => (long)f.Length) + tail.Length;
+            if (length > int.MaxValue) throw new InvalidDataException($"the rewritten graph would be {length} bytes");
+            return new Splice(top, inGraph, tail, length);
+        }
+
+        public void WriteTo(byte[] exposed, Stream destination)
+        {
+            foreach (var field in Top)
+            {
+                if (field.Number != ModelProto.GraphFieldNumber)
+                {
+                    destination.Write(exposed, field.Start, field.Length);
+                    continue;
+                }
+                WireFields.WriteVarint(destination, GraphTag);
+                WireFields.WriteVarint(destination, (ulong)GraphLength);
+                foreach (var g in Graph)
+                    if (g.Number != GraphProto.OutputFieldNumber) destination.Write(exposed, g.Start, g.Length);
+                destination.Write(Tail);
+            }
+        }
+    }
+
+    internal static void WriteParsed(byte[] exposed, IReadOnlyList<LayerInfo> read, Stream destination, bool fusePeaks)
+    {
         var model = ModelProto.Parser.ParseFrom(exposed);
-        var graph = model.Graph;
-        long opset = model.OpsetImport.Where(o => o.Domain is "" or "ai.onnx").Select(o => o.Version).DefaultIfEmpty(13).Max();
-        var outputs = graph.Output.ToList();
-        graph.Output.Clear();
+        var add = Additions(model.Graph.Output.ToList(), Opset(model.OpsetImport), read, fusePeaks);
+        model.Graph.Output.Clear();
+        model.Graph.MergeFrom(add);
+        model.WriteTo(destination);
+    }
+
+    private static long Opset(IEnumerable<OperatorSetIdProto> imports) =>
+        imports.Where(o => o.Domain is "" or "ai.onnx").Select(o => o.Version).DefaultIfEmpty(13).Max();
+
+    // What the reduction adds to the graph: its nodes and initializers, and the graph's whole new output list.
+    private static GraphProto Additions(IReadOnlyList<ValueInfoProto> outputs, long opset, IReadOnlyList<LayerInfo> read, bool fusePeaks)
+    {
+        var graph = new GraphProto();
         graph.Output.Add(outputs[0]);
         for (int l = 0; l < read.Count; l++)
         {
@@ -76,7 +159,7 @@ public static class ReducedGraph
             graph.Output.Add(Info(max, TensorProto.Types.DataType.Float, layer.Channels, 1));
             graph.Output.Add(Info(arg, TensorProto.Types.DataType.Int64, layer.Channels, 1));
         }
-        return model.ToByteArray();
+        return graph;
     }
 
     /// <summary>The output names of the rewritten graph after the class output, in order.</summary>

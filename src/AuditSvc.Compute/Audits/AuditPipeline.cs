@@ -41,7 +41,10 @@ public static class AuditPipeline
         CheckLabels(table, model);
         PolicyFile.CheckAttributes(request.Policy, table.Attributes.Select(a => a.Name).ToList(), "policy");
         var passOptions = request.Pass with { SpillDirectory = request.Pass.SpillDirectory ?? Path.Combine(request.WorkDirectory, "scores") };
+        // Once per audit, before the pass's session is built: what the set's intake left goes back to the system.
+        OrtRunner.ReleaseTransient();
         using var pass = new ActivationPass(model.Plan, model.RewrittenModel, passOptions);
+        pass.Prepare();
         MemoryTrace.Mark("pass session built");
         stage?.Invoke(AuditStage.Pass, $"{table.Items.Count} images, {pass.Layers.Sum(l => l.Count)} units in {pass.Layers.Count} layers, batch {pass.Options.BatchSize}");
         var clock = Stopwatch.StartNew();

@@ -33,6 +33,8 @@ public static class ThroughputBench
         var model = ModelIntake.Load(o.ModelPath);
         var options = new PassOptions { BatchSize = o.BatchSize, InferenceThreads = o.Threads, DecodeThreads = o.DecodeThreads > 0 ? o.DecodeThreads : o.Threads, Spinning = o.Spinning, SpillDirectory = Path.Combine(work, "spill") };
         using var pass = new ActivationPass(model.Plan, model.RewrittenModel, options);
+        // The session is built here, as before it was built lazily: "resident after the intake" includes it.
+        pass.Prepare();
         var opt = pass.Options;
         int slot = pass.Preprocessor.SlotLength, units = pass.Layers.Sum(l => l.Count);
         log($"model {Path.GetFileName(o.ModelPath)}: {units} units in {pass.Layers.Count} layers, batch {opt.BatchSize}, " +

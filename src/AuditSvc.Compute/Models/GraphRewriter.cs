@@ -69,7 +69,7 @@ public static class GraphRewriter
         IReadOnlyDictionary<string, FloatTensor> together;
         try
         {
-            together = OrtRunner.Run(batched.ToByteArray(), inputName, noise);
+            together = OrtRunner.Run(batched, inputName, noise);
         }
         catch (OnnxRuntimeException)
         {
@@ -78,19 +78,27 @@ public static class GraphRewriter
         // The batched session is gone before the single one is built: one copy of the weights in the runtime at a time.
         var ones = Enumerable.Range(0, batch)
             .Select(b => new FloatTensor([1, .. imageShape[1..]], noise.Data.AsSpan(b * per, per).ToArray())).ToList();
-        var singles = OrtRunner.RunEach(single.ToByteArray(), inputName, ones);
-        for (int b = 0; b < batch; b++)
+        // Each single image's outputs are compared while the runtime holds them: no copy of them is kept.
+        bool same = true;
+        OrtRunner.Visit(single, inputName, ones, (b, name, data) =>
         {
-            foreach (var (name, t) in singles[b])
+            if (!same) return;
+            if (!together.TryGetValue(name, out var all) || all.Shape.Length == 0 || all.Shape[0] != batch
+                || all.Data.Length != data.Length * batch)
             {
-                if (!together.TryGetValue(name, out var all) || all.Shape.Length == 0 || all.Shape[0] != batch
-                    || all.Data.Length != t.Data.Length * batch) return false;
-                float scale = Math.Max(1f, t.Data.Length == 0 ? 1f : t.Data.Max(Math.Abs));
-                var slice = all.Data.AsSpan(b * t.Data.Length, t.Data.Length);
-                for (int i = 0; i < slice.Length; i++)
-                    if (!(Math.Abs(slice[i] - t.Data[i]) <= 1e-4f * scale)) return false;
+                same = false;
+                return;
             }
-        }
-        return true;
+            float scale = 1f;
+            foreach (float v in data) scale = Math.Max(scale, Math.Abs(v));
+            var slice = all.Data.AsSpan(b * data.Length, data.Length);
+            for (int i = 0; i < slice.Length; i++)
+                if (!(Math.Abs(slice[i] - data[i]) <= 1e-4f * scale))
+                {
+                    same = false;
+                    return;
+                }
+        });
+        return same;
     }
 }

@@ -22,15 +22,45 @@ public static partial class OrtRunner
         RunEach(model, inputName, [input], outputNames, level)[0];
 
     /// <summary>
-    /// <see cref="Run"/> on each of <paramref name="inputs"/> in turn, with one session: the session holds a copy of
+    /// <see cref="Run(byte[], string, FloatTensor, IReadOnlyList{string}?, GraphOptimizationLevel)"/> on each of <paramref name="inputs"/> in turn, with one session: the session holds a copy of
     /// the weights, so one per input would cost a copy per input.
     /// </summary>
     public static IReadOnlyList<IReadOnlyDictionary<string, FloatTensor>> RunEach(
         byte[] model, string inputName, IReadOnlyList<FloatTensor> inputs, IReadOnlyList<string>? outputNames = null,
-        GraphOptimizationLevel level = GraphOptimizationLevel.ORT_DISABLE_ALL)
+        GraphOptimizationLevel level = GraphOptimizationLevel.ORT_DISABLE_ALL) =>
+        RunEach(options => new InferenceSession(model, options), inputName, inputs, outputNames, level);
+
+    /// <summary><see cref="Run(byte[], string, FloatTensor, IReadOnlyList{string}?, GraphOptimizationLevel)"/> on a model not yet serialised: the runtime reads it from a temporary file.</summary>
+    internal static IReadOnlyDictionary<string, FloatTensor> Run(ModelProto model, string inputName, FloatTensor input) =>
+        RunEach(options => SessionFiles.Build(model.WriteTo, options), inputName, [input], null, GraphOptimizationLevel.ORT_DISABLE_ALL)[0];
+
+    /// <summary>A float output of a run, seen while its value is alive.</summary>
+    internal delegate void OutputVisitor(int input, string name, ReadOnlySpan<float> data);
+
+    /// <summary>
+    /// Runs each of <paramref name="inputs"/> through one session over <paramref name="model"/> (read from a temporary
+    /// file) and shows every float output to <paramref name="visit"/> without copying it out.
+    /// </summary>
+    internal static void Visit(ModelProto model, string inputName, IReadOnlyList<FloatTensor> inputs, OutputVisitor visit)
     {
         ArgumentNullException.ThrowIfNull(inputs);
-        return WithSession(model, level, session =>
+        WithSession(options => SessionFiles.Build(model.WriteTo, options), GraphOptimizationLevel.ORT_DISABLE_ALL, session =>
+        {
+            for (int i = 0; i < inputs.Count; i++)
+            {
+                int at = i;
+                Fetch(session, inputName, inputs[i], session.OutputNames, (name, r) => visit(at, name, r.GetTensorDataAsSpan<float>()));
+            }
+            return 0;
+        });
+    }
+
+    private static IReadOnlyList<IReadOnlyDictionary<string, FloatTensor>> RunEach(
+        Func<SessionOptions, InferenceSession> build, string inputName, IReadOnlyList<FloatTensor> inputs, IReadOnlyList<string>? outputNames,
+        GraphOptimizationLevel level)
+    {
+        ArgumentNullException.ThrowIfNull(inputs);
+        return WithSession(build, level, session =>
         {
             var names = outputNames ?? session.OutputNames;
             var all = new List<IReadOnlyDictionary<string, FloatTensor>>(inputs.Count);
@@ -52,7 +82,8 @@ public static partial class OrtRunner
     public static IReadOnlyDictionary<string, long[]> ProbeShapes(ModelProto model, string inputName, long[] inputShape)
     {
         var zeros = new FloatTensor(inputShape, new float[checked((int)inputShape.Aggregate(1L, (a, b) => a * b))]);
-        return WithSession(ProbeBytes(model), GraphOptimizationLevel.ORT_DISABLE_ALL, session =>
+        var probe = ProbeModel(model);
+        return WithSession(options => SessionFiles.Build(probe.WriteTo, options), GraphOptimizationLevel.ORT_DISABLE_ALL, session =>
         {
             var shapes = new Dictionary<string, long[]>(StringComparer.Ordinal);
             Fetch(session, inputName, zeros, session.OutputNames, (name, r) => shapes[name] = r.GetTensorTypeAndShape().Shape);
@@ -60,8 +91,8 @@ public static partial class OrtRunner
         });
     }
 
-    // The probe's copy of the graph lives only until it is serialised.
-    private static byte[] ProbeBytes(ModelProto model)
+    // A copy of the graph with every node output exposed; it shares the weights' byte strings with the model.
+    private static ModelProto ProbeModel(ModelProto model)
     {
         var probe = model.Clone();
         var graph = probe.Graph;
@@ -70,10 +101,10 @@ public static partial class OrtRunner
             foreach (var name in node.Output)
                 if (name.Length > 0 && existing.Add(name))
                     graph.Output.Add(new ValueInfoProto { Name = name });
-        return probe.ToByteArray();
+        return probe;
     }
 
-    private static T WithSession<T>(byte[] model, GraphOptimizationLevel level, Func<InferenceSession, T> use)
+    private static T WithSession<T>(Func<SessionOptions, InferenceSession> build, GraphOptimizationLevel level, Func<InferenceSession, T> use)
     {
         // Failures surface as exceptions the caller handles (the batch check expects some); keep ORT's log quiet.
         using var options = new SessionOptions
@@ -84,7 +115,7 @@ public static partial class OrtRunner
         OrtEnvironment.EnsureQuiet();
         // What earlier steps left (parsed weights, another session's serialised copy) goes before a session is built.
         ReleaseTransient();
-        using var session = new InferenceSession(model, options);
+        using var session = build(options);
         return use(session);
     }
 

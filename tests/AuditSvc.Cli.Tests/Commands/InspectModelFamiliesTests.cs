@@ -38,8 +38,9 @@ public class InspectModelFamiliesTests
         // A printed measurement, not a memory assertion: only its shape is checked.
         var (status, stdout, stderr) = CliProcess.Run("inspect", "--model", Fixture("resnet"), "--memory");
         Assert.True(status == 0, stderr);
-        foreach (var step in new[] { "intake", "pass sessions built", "first batch of", "after compacting GC and malloc_trim" })
+        foreach (var step in new[] { "intake", "pass session built", "first batch of", "after compacting GC and malloc_trim" })
             Assert.Contains(step, stdout);
-        Assert.Matches(@"highest peak \d+ MB = [\d.]+x the model file", stdout);
+        Assert.Matches(@"highest peak \d+ MB = [\d.]+x the model file; above the runtime \d+ MB = [\d.]+x the model file", stdout);
+        Assert.Matches(@"\d+ MB resident before the intake, \d+ MB with ONNX Runtime loaded", stdout);
     }
 }

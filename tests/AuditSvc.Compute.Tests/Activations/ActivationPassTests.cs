@@ -116,4 +116,27 @@ public class ActivationPassTests
         pass.ReleaseKept();
         Assert.Null(pass.Kept(0));
     }
+
+    [Fact]
+    public void New_ReadingLayersAndOptions_BuildsNoSession()
+    {
+        // A merge of chunk results reads only these: it must not pay for a session it never runs.
+        var model = ModelIntake.Load(Model);
+        using var pass = new ActivationPass(model.Plan, model.RewrittenModel, new PassOptions { BatchSize = 4 });
+        Assert.NotEmpty(pass.Layers);
+        Assert.Equal(4, pass.Options.BatchSize);
+        Assert.Equal(model.Plan.Recipe.Mean.Length * 64 * 64, pass.Preprocessor.SlotLength);
+        Assert.Equal((false, false), pass.SessionsBuilt);
+    }
+
+    [Fact]
+    public void Runner_FullMapsForInterventions_LeavesThePassSessionUnbuilt()
+    {
+        var model = ModelIntake.Load(Model);
+        using var pass = new ActivationPass(model.Plan, model.RewrittenModel, new PassOptions { BatchSize = 4 });
+        Assert.False(pass.Runner.Reduced);
+        Assert.Equal((false, true), pass.SessionsBuilt);
+        pass.Prepare();
+        Assert.Equal((true, true), pass.SessionsBuilt);
+    }
 }

@@ -71,4 +71,19 @@ public class ReducedGraphTests
         Assert.Equal(spatial, proto.Graph.Node.Count(n => n.OpType == "MaxPool" && n.Name.StartsWith("auditsvc_reduce_", StringComparison.Ordinal)));
         Assert.DoesNotContain(proto.Graph.Node, n => n.OpType is "ArgMax" or "GatherElements" && n.Name.StartsWith("auditsvc_reduce_", StringComparison.Ordinal));
     }
+
+    [Theory]
+    [InlineData(true)]
+    [InlineData(false)]
+    public void Rewrite_CopyingWeightsThrough_GivesTheModelThatParsingWholeGives(bool fusePeaks)
+    {
+        var model = ModelIntake.Load(Model);
+        using var parsed = new MemoryStream();
+        ReducedGraph.WriteParsed(model.RewrittenModel, model.Plan.ReadLayers, parsed, fusePeaks);
+        var spliced = ReducedGraph.Rewrite(model.RewrittenModel, model.Plan.ReadLayers, fusePeaks);
+        var expected = Onnx.ModelProto.Parser.ParseFrom(parsed.ToArray());
+        var actual = Onnx.ModelProto.Parser.ParseFrom(spliced);
+        Assert.Equal(expected, actual);
+        Assert.Equal(expected.Graph.Initializer.Select(t => t.RawData), actual.Graph.Initializer.Select(t => t.RawData));
+    }
 }
