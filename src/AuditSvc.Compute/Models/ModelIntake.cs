@@ -55,6 +55,7 @@ public static class ModelIntake
         RawWeights.Pack(model.Graph);
         // Parsing and packing left the weights' old arrays behind.
         OrtRunner.ReleaseTransient();
+        Audits.MemoryTrace.Mark("model parsed");
         var input = OnnxGuard.ImageInputOf(modelPath, model);
         if (input.Batch is > 1)
             throw new AuditInputException(modelPath,
@@ -86,6 +87,7 @@ public static class ModelIntake
         var shapes = Guarded(modelPath, () => OrtRunner.ProbeShapes(model, input.Name, imageShape));
         // The probe's serialised copy of the model and its session's memory go before the next step allocates.
         OrtRunner.ReleaseTransient();
+        Audits.MemoryTrace.Mark("shapes probed");
         if (!shapes.TryGetValue(classOutput, out var classShape) || classShape.Length < 2)
             throw new AuditInputException(modelPath, $"the first graph output '{classOutput}' is not a float tensor [N, classes] (field 'output')");
         int classCount = checked((int)classShape.Skip(1).Aggregate(1L, (a, b) => a * b));
@@ -123,6 +125,7 @@ public static class ModelIntake
             bool free = options.CheckBatch
                 && Guarded(modelPath, () => GraphRewriter.BatchMatchesSingles(single, batched, input.Name, imageShape));
             OrtRunner.ReleaseTransient();
+            Audits.MemoryTrace.Mark("batch checked");
             if (free) rewritten = batched;
             else batchMode = BatchMode.ConcurrentSingle;
         }
