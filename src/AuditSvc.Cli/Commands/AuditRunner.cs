@@ -66,7 +66,7 @@ internal static class AuditRunner
     }
 
     private static IExemplarImages ExemplarImagesFor(AuditRun run) =>
-        new Compute.Reporting.ExemplarImages(item => run.Table.Items[item].Path, run.Model.Plan.Recipe);
+        new Compute.Reporting.ExemplarImages(item => run.Table.Items[item].Path, run.Plan.Recipe);
 
     public static void PrintSummary(AuditResult r, string json, string html)
     {

@@ -27,10 +27,13 @@ public sealed class ActivationPass : IDisposable
     private readonly IReadOnlyList<LayerSlice> _layers;
     private readonly int _units;
     private Image<Rgb24>?[]? _kept;
+    private byte[]? _onnx;
+    private bool _releaseOnBuild;
 
     public ActivationPass(ModelPlan plan, byte[] onnx, PassOptions options)
     {
         _plan = plan;
+        _onnx = onnx;
         var single = plan.Batch == BatchMode.ConcurrentSingle;
         var probe = new Preprocessor(plan.Recipe);
         Options = options.Resolve(probe.SlotLength);
@@ -38,9 +41,14 @@ public sealed class ActivationPass : IDisposable
         bool inGraph = Options.ReduceInGraph ?? true;
         // Both sessions are made when first run: a merge reads only the layers and options, and runs neither; the
         // interventions read full maps of single units.
-        _fullRunner = new Lazy<ModelRunner>(() => new ModelRunner(plan, onnx, threads, Options.Spinning ?? false));
+        _fullRunner = new Lazy<ModelRunner>(() => new ModelRunner(plan, Source(), threads, Options.Spinning ?? false));
         _runner = inGraph
-            ? new Lazy<ModelRunner>(() => new ModelRunner(plan, file => ReducedGraph.Write(onnx, plan.ReadLayers, file), threads, Options.Spinning ?? false, reduced: true))
+            ? new Lazy<ModelRunner>(() => new ModelRunner(plan, file =>
+            {
+                WriteReduced(file);
+                // Written: the runtime builds the session from the file, so the model's bytes can go before it does.
+                if (_releaseOnBuild) ReleaseSource();
+            }, threads, Options.Spinning ?? false, reduced: true))
             : _fullRunner;
         // The recipe has one mean per input channel (the intake checks it against the graph's input).
         _pre = new Preprocessor(plan.Recipe) { Channels = plan.Recipe.Mean.Length };
@@ -229,7 +237,30 @@ public sealed class ActivationPass : IDisposable
     }
 
     /// <summary>Builds the pass's session now rather than at the first run (to measure it, or to fail early).</summary>
-    public void Prepare() => _ = _runner.Value;
+    /// <param name="releaseModelBytes">Let go of the rewritten model's bytes once the session's file is written, before the
+    /// runtime builds from it (the caller must hold no other reference): they are not needed again unless full maps are
+    /// asked for, which such a pass then refuses. The command line's audit does this; the service's chunks do not.</param>
+    public void Prepare(bool releaseModelBytes = false)
+    {
+        _releaseOnBuild = releaseModelBytes;
+        _ = _runner.Value;
+        if (releaseModelBytes) ReleaseSource();
+    }
+
+    // Its own frame, so that no stack slot of the caller still holds the bytes when they are let go.
+    [System.Runtime.CompilerServices.MethodImpl(System.Runtime.CompilerServices.MethodImplOptions.NoInlining)]
+    private void WriteReduced(Stream file) => ReducedGraph.Write(Source(), _plan.ReadLayers, file);
+
+    private byte[] Source() => _onnx ?? throw new InvalidOperationException(
+        "this pass let go of the model's bytes once its session was built (Prepare(releaseModelBytes: true)): it cannot build a session that reads full maps");
+
+    private void ReleaseSource()
+    {
+        if (_onnx is null) return;
+        _onnx = null;
+        // A large array: it goes only with a full collection, which the runtime's optimiser is about to need the room of.
+        Models.OrtRunner.ReleaseTransient();
+    }
 
     /// <summary>Which sessions exist: the pass's (in-graph maxima, or full maps when it reads them) and the full maps'.</summary>
     internal (bool Pass, bool FullMaps) SessionsBuilt => (_runner.IsValueCreated, _fullRunner.IsValueCreated);

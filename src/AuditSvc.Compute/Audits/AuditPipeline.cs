@@ -18,7 +18,7 @@ public sealed record AuditRequest(string ModelPath, string DataPath, ModelLoadOp
     string? ImagesRoot = null);
 
 /// <summary>An audit's document together with what is needed to render its exemplars.</summary>
-public sealed record AuditRun(AuditResult Result, ItemTable Table, LoadedModel Model);
+public sealed record AuditRun(AuditResult Result, ItemTable Table, Core.Models.ModelPlan Plan);
 
 /// <summary>Stage of a running audit, for progress lines and the service's state.</summary>
 public enum AuditStage { Intake, Pass, Analysis, Interventions, Done }
@@ -33,6 +33,36 @@ public static class AuditPipeline
     {
         stage?.Invoke(AuditStage.Intake, "reading the model and the image set");
         MemoryTrace.Mark("start");
+        var (plan, table, pass) = Start(request);
+        using (pass)
+        {
+            // The pass's session is built from a file; the model's bytes go before the runtime's optimiser needs room.
+            pass.Prepare(releaseModelBytes: true);
+            MemoryTrace.Mark("pass session built");
+            stage?.Invoke(AuditStage.Pass, $"{table.Items.Count} images, {pass.Layers.Sum(l => l.Count)} units in {pass.Layers.Count} layers, batch {pass.Options.BatchSize}");
+            var clock = Stopwatch.StartNew();
+            // Small sets keep their decoded images for the interventions, which would otherwise decode most of them again.
+            var act = pass.Run(table, progress, ct, keepFittedBytes: ImageRuns.CacheBytes);
+            double passSeconds = clock.Elapsed.TotalSeconds;
+            MemoryTrace.Mark("activation run done");
+            try
+            {
+                return new AuditRun(Finish(pass, table, plan, act, request.Policy, passSeconds, stage, ct), table, plan);
+            }
+            finally
+            {
+                (act.Scores as IDisposable)?.Dispose();
+            }
+        }
+    }
+
+    /// <summary>
+    /// Model and set intake, and the pass over the model. Its own frame, so that the loaded model (and its bytes) is not
+    /// held by the caller once the pass has it: <see cref="ActivationPass.Prepare"/> can then let the bytes go.
+    /// </summary>
+    [System.Runtime.CompilerServices.MethodImpl(System.Runtime.CompilerServices.MethodImplOptions.NoInlining)]
+    private static (Core.Models.ModelPlan Plan, ItemTable Table, ActivationPass Pass) Start(AuditRequest request)
+    {
         var model = ModelIntake.Load(request.ModelPath, request.ModelOptions);
         MemoryTrace.Mark("model intake done");
         Directory.CreateDirectory(request.WorkDirectory);
@@ -43,23 +73,7 @@ public static class AuditPipeline
         var passOptions = request.Pass with { SpillDirectory = request.Pass.SpillDirectory ?? Path.Combine(request.WorkDirectory, "scores") };
         // Once per audit, before the pass's session is built: what the set's intake left goes back to the system.
         OrtRunner.ReleaseTransient();
-        using var pass = new ActivationPass(model.Plan, model.RewrittenModel, passOptions);
-        pass.Prepare();
-        MemoryTrace.Mark("pass session built");
-        stage?.Invoke(AuditStage.Pass, $"{table.Items.Count} images, {pass.Layers.Sum(l => l.Count)} units in {pass.Layers.Count} layers, batch {pass.Options.BatchSize}");
-        var clock = Stopwatch.StartNew();
-        // Small sets keep their decoded images for the interventions, which would otherwise decode most of them again.
-        var act = pass.Run(table, progress, ct, keepFittedBytes: ImageRuns.CacheBytes);
-        double passSeconds = clock.Elapsed.TotalSeconds;
-        MemoryTrace.Mark("activation run done");
-        try
-        {
-            return new AuditRun(Finish(pass, table, model, act, request.Policy, passSeconds, stage, ct), table, model);
-        }
-        finally
-        {
-            (act.Scores as IDisposable)?.Dispose();
-        }
+        return (model.Plan, table, new ActivationPass(model.Plan, model.RewrittenModel, passOptions));
     }
 
     /// <summary>
@@ -103,7 +117,7 @@ public static class AuditPipeline
         }
         try
         {
-            return Finish(pass, table, model, act, policy, passSeconds, stage, ct);
+            return Finish(pass, table, model.Plan, act, policy, passSeconds, stage, ct);
         }
         finally
         {
@@ -112,15 +126,15 @@ public static class AuditPipeline
     }
 
     /// <summary>Analysis, interventions and verdict over a finished activation pass.</summary>
-    public static AuditResult Finish(ActivationPass pass, ItemTable table, LoadedModel model, ActivationResult act, AuditPolicy policy, double passSeconds,
+    public static AuditResult Finish(ActivationPass pass, ItemTable table, Core.Models.ModelPlan plan, ActivationResult act, AuditPolicy policy, double passSeconds,
         Action<AuditStage, string>? stage = null, CancellationToken ct = default)
     {
         if (!act.Scored.Any(s => s))
             throw new AuditInputException(table.Report.Source, $"no image could be pushed through the model ({act.Problems.Count} failed; first: {act.Problems.FirstOrDefault()?.File}: {act.Problems.FirstOrDefault()?.Reason})");
         stage?.Invoke(AuditStage.Analysis, "rank tests of every unit against every attribute value");
-        var analysis = AuditAnalysis.Analyze(table, model.Plan, act, policy, ct);
+        var analysis = AuditAnalysis.Analyze(table, plan, act, policy, ct);
         MemoryTrace.Mark("rank tests done");
-        var (extended, places) = PlaceCues.Infer(table, model.Plan, act, analysis, policy.MinGroupSize);
+        var (extended, places) = PlaceCues.Infer(table, plan, act, analysis, policy.MinGroupSize);
         MemoryTrace.Mark("place cues done");
         analysis = AuditAnalysis.WithInferred(extended, act, analysis, policy);
         var targets = CueTargets.Choose(extended, act, analysis, places, policy);
@@ -135,7 +149,7 @@ public static class AuditPipeline
         var evidence = Interventions.Run(runs, extended, act, targets, policy, ct);
         MemoryTrace.Mark("interventions done");
         table = extended;
-        var inputs = new AuditInputs(table, model.Plan, act, analysis, evidence, places, policy, passSeconds, clock.Elapsed.TotalSeconds, runs.Runs,
+        var inputs = new AuditInputs(table, plan, act, analysis, evidence, places, policy, passSeconds, clock.Elapsed.TotalSeconds, runs.Runs,
             pass.Options.BatchSize, DateTimeOffset.UtcNow)
         {
             InferenceThreads = pass.Options.InferenceThreads,

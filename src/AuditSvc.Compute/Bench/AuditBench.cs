@@ -145,7 +145,7 @@ public static class AuditBench
         var request = new AuditRequest(model, manifest, load, new AuditPolicy(), options, Path.Combine(outDir, ".work"));
         var run = AuditPipeline.Run(request, null, phases.Wrap(), ct);
         var drawing = Stopwatch.StartNew();
-        var exemplars = new Reporting.ExemplarImages(item => run.Table.Items[item].Path, run.Model.Plan.Recipe);
+        var exemplars = new Reporting.ExemplarImages(item => run.Table.Items[item].Path, run.Plan.Recipe);
         File.WriteAllText(Path.Combine(outDir, "report.html"), HtmlReport.Render(run.Result, exemplars));
         var times = phases.Times(phases.Seconds(AuditStage.Intake), drawing.Elapsed.TotalSeconds);
         AuditJson.Write(Path.Combine(outDir, "audit.json"), run.Result with { Phases = times });

@@ -37,11 +37,11 @@ public static class IntakeMemory
         PeakMemory.Trim();
         long runtime = PeakMemory.CurrentBytes();
         PeakMemory.Reset();
-        var model = ModelIntake.Load(modelPath, load);
+        using var activation = Intake(modelPath, load, pass);
         Step(steps, clock, "intake");
         PeakMemory.Reset();
-        using var activation = new ActivationPass(model.Plan, model.RewrittenModel, pass ?? new PassOptions());
-        activation.Prepare();
+        // As the command line's audit builds it: the model's bytes go once the session's file is written.
+        activation.Prepare(releaseModelBytes: true);
         Step(steps, clock, "pass session built");
         PeakMemory.Reset();
         int batch = activation.Options.BatchSize, slot = activation.Preprocessor.SlotLength;
@@ -51,8 +51,15 @@ public static class IntakeMemory
         PeakMemory.Reset();
         PeakMemory.Trim();
         Step(steps, clock, "after compacting GC and malloc_trim");
-        GC.KeepAlive(model);
         return new IntakeMemoryResult(Path.GetFileName(modelPath), new FileInfo(modelPath).Length, start, runtime, steps);
+    }
+
+    // Its own frame: once it returns, only the pass holds the loaded model's bytes.
+    [System.Runtime.CompilerServices.MethodImpl(System.Runtime.CompilerServices.MethodImplOptions.NoInlining)]
+    private static ActivationPass Intake(string modelPath, ModelLoadOptions? load, PassOptions? pass)
+    {
+        var model = ModelIntake.Load(modelPath, load);
+        return new ActivationPass(model.Plan, model.RewrittenModel, pass ?? new PassOptions());
     }
 
     private static void Step(List<MemoryStep> steps, System.Diagnostics.Stopwatch clock, string name)

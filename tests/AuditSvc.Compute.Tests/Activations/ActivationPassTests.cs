@@ -139,4 +139,31 @@ public class ActivationPassTests
         pass.Prepare();
         Assert.Equal((true, true), pass.SessionsBuilt);
     }
+
+    [Fact]
+    public void Prepare_ReleasingTheModelBytes_LetsThemGo_RunsTheSame_AndRefusesFullMaps()
+    {
+        var table = RandomSet(9, out _);
+        var (pass, bytes) = PassOverItsOwnBytes(new PassOptions { BatchSize = 4 });
+        using (pass)
+        {
+            pass.Prepare(releaseModelBytes: true);
+            GC.Collect();
+            GC.WaitForPendingFinalizers();
+            Assert.False(bytes.IsAlive, "nothing but the pass held the model's bytes, and it let them go once its session was built");
+            var released = pass.Run(table, null, CancellationToken.None);
+            var reference = RunPass(table, ModelIntake.Load(Model), new PassOptions { BatchSize = 4 });
+            Assert.Equal(reference.Pred, released.Predicted);
+            var ex = Assert.Throws<InvalidOperationException>(() => pass.Runner);
+            Assert.Contains("full maps", ex.Message, StringComparison.Ordinal);
+        }
+    }
+
+    // Its own frame: the caller keeps no reference to the model's bytes, only a weak one.
+    [System.Runtime.CompilerServices.MethodImpl(System.Runtime.CompilerServices.MethodImplOptions.NoInlining)]
+    private static (ActivationPass Pass, WeakReference Bytes) PassOverItsOwnBytes(PassOptions options)
+    {
+        var model = ModelIntake.Load(Model);
+        return (new ActivationPass(model.Plan, model.RewrittenModel, options), new WeakReference(model.RewrittenModel));
+    }
 }

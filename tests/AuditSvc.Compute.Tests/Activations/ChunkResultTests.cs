@@ -25,7 +25,7 @@ public class ChunkResultTests
             var act = pass.Run(table, null, CancellationToken.None);
             Exception? readDuringInterventions = null;
 
-            var result = AuditPipeline.Finish(pass, table, model, act, new AuditPolicy(), 1.0, (stage, _) =>
+            var result = AuditPipeline.Finish(pass, table, model.Plan, act, new AuditPolicy(), 1.0, (stage, _) =>
             {
                 if (stage == AuditStage.Interventions)
                     readDuringInterventions = Record.Exception(() => act.Scores.ReadUnits(0, 1, new float[table.Items.Count]));
