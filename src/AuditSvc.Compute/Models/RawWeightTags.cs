@@ -13,6 +13,10 @@ internal static class RawWeightTags
     private const int ModelGraph = 7, GraphInitializer = 5, TensorDataType = 2, TensorFloatData = 4, TensorRawData = 9;
     private const ulong FloatType = 1;
 
+    // Small tensors gain nothing from the swap and are packed after parsing: the offsets kept stay under 1/128 of the
+    // file's size, whatever a file holds.
+    internal const int MinSwapBytes = 1024;
+
     /// <summary>
     /// Walks ModelProto.graph → GraphProto.initializer → TensorProto reading only tags and lengths, seeking past every
     /// payload, and returns the file offsets of the float_data tags to swap, in order. Returns null on anything it does
@@ -50,7 +54,8 @@ internal static class RawWeightTags
             return file.Position == end;
         }
 
-        // Records the float_data tag of a float tensor whose weights are one packed float_data field and nothing else:
+        // Records the float_data tag of a float tensor whose weights are one packed float_data field of at least
+        // MinSwapBytes and nothing else:
         // raw_data is a single bytes field (the last one wins), so two chunks, unpacked floats or an existing raw_data
         // are left to RawWeights.Pack, as is a payload that is not whole floats (the parser reports that one).
         public bool Tensor(long start, long end, List<long> found)
@@ -73,7 +78,8 @@ internal static class RawWeightTags
                 if (number == TensorFloatData)
                 {
                     floatFields++;
-                    if (wire == WireFields.LengthDelimited && tagBytes == 1 && (file.Position - valueStart) % sizeof(float) == 0) tagAt = at;
+                    long length = file.Position - valueStart;
+                    if (wire == WireFields.LengthDelimited && tagBytes == 1 && length % sizeof(float) == 0 && length >= MinSwapBytes) tagAt = at;
                     else other = true;
                 }
                 else if (number == TensorRawData)

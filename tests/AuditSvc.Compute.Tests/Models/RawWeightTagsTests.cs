@@ -49,18 +49,19 @@ public class RawWeightTagsTests
 
         AssertSameAsParseThenPack(path);
         using (var file = File.OpenRead(path))
-            Assert.Equal(smallCnnFloats + 3, RawWeightTags.Find(file)!.Length); // SmallCnn's weights, "packed", "type-after", "empty"
+            Assert.Equal(smallCnnFloats + 2, RawWeightTags.Find(file)!.Length); // SmallCnn's large weights, "packed", "type-after"
 
         var (retagged, _) = ModelIntake.ParseHashed(path);
         var t = retagged.Graph.Initializer.ToDictionary(x => x.Name);
-        Assert.True(t["packed"].FloatData.Count == 0 && t["packed"].RawData.Length == 12);
-        Assert.True(t["type-after"].FloatData.Count == 0 && t["type-after"].RawData.Length == 8);
+        Assert.True(t["packed"].FloatData.Count == 0 && t["packed"].RawData.Length == 1024);
+        Assert.True(t["type-after"].FloatData.Count == 0 && t["type-after"].RawData.Length == 1028);
         Assert.True(t["empty"].FloatData.Count == 0 && t["empty"].RawData.IsEmpty);
+        Assert.Equal([1f, 2f], t["small"].FloatData);
         Assert.Equal([1f, 2f], t["unpacked"].FloatData);
-        Assert.Equal([1f, 2f, 3f, 4f], t["complex"].FloatData);
-        Assert.Equal([1f, 2f, 3f], t["two-chunks"].FloatData);
-        Assert.True(t["both"].FloatData.Count == 2 && t["both"].RawData.Length == 4);
-        Assert.Equal([1f, 2f], t["int-typed"].FloatData);
+        Assert.Equal(256, t["complex"].FloatData.Count);
+        Assert.Equal(257, t["two-chunks"].FloatData.Count);
+        Assert.True(t["both"].FloatData.Count == 256 && t["both"].RawData.Length == 4);
+        Assert.Equal(256, t["int-typed"].FloatData.Count);
     }
 
     [Fact]
@@ -75,7 +76,9 @@ public class RawWeightTagsTests
         cases.Add([.. whole, 0x3A, 0x80]);                      // a truncated varint
         cases.Add([.. whole, 0x3F]);                            // field 7 with wire type 7
         cases.Add([.. whole, 0x3A, 0x08, 0x2A, 0x06, 0x10, 0x01, 0x22, 0x05, 0, 0]); // float_data of 5 bytes, cut short
-        cases.Add([.. whole, 0x3A, 0x0B, 0x2A, 0x09, 0x10, 0x01, 0x22, 0x05, 0, 0, 0, 0, 0]); // 5 bytes: not whole floats
+        byte[] notWhole = [0x10, 0x01, 0x22, .. Varint(1026), .. new byte[1026]];           // 1026 bytes: not whole floats
+        byte[] initializer = [0x2A, .. Varint(notWhole.Length), .. notWhole];
+        cases.Add([.. whole, 0x3A, .. Varint(initializer.Length), .. initializer]);
         int failed = 0;
         for (int i = 0; i < cases.Count; i++)
         {
@@ -141,21 +144,24 @@ public class RawWeightTagsTests
     private static string HandEncoded(TempDir dir, out int smallCnnFloats)
     {
         var g = TestModels.SmallCnn();
-        smallCnnFloats = g.Graph.Initializer.Count(t => t.DataType == 1 && t.FloatData.Count > 0);
+        smallCnnFloats = g.Graph.Initializer.Count(t => t.DataType == 1 && t.FloatData.Count * 4 >= RawWeightTags.MinSwapBytes);
+        Assert.InRange(smallCnnFloats, 1, g.Graph.Initializer.Count - 1);
         byte[] one = BitConverter.GetBytes(1f), two = BitConverter.GetBytes(2f), three = BitConverter.GetBytes(3f), four = BitConverter.GetBytes(4f);
+        byte[] many = [.. Enumerable.Range(0, 256).SelectMany(i => BitConverter.GetBytes(i * 0.5f - 7f))], more = [.. many, .. one];
         byte[][] tensors =
         [
-            Tensor("packed", 1, [0x22, 12, .. one, .. two, .. three]),
-            Tensor("type-after", 0, [0x22, 8, .. one, .. two, 0x10, 0x01]),
+            Tensor("packed", 1, [0x22, .. Varint(many.Length), .. many]),
+            Tensor("type-after", 0, [0x22, .. Varint(more.Length), .. more, 0x10, 0x01]),
             Tensor("empty", 1, [0x22, 0]),
+            Tensor("small", 1, [0x22, 8, .. one, .. two]),
             Tensor("unpacked", 1, [0x25, .. one, 0x25, .. two]),
-            Tensor("complex", 14, [0x22, 16, .. one, .. two, .. three, .. four]),
-            Tensor("two-chunks", 1, [0x22, 8, .. one, .. two, 0x22, 4, .. three]),
-            Tensor("both", 1, [0x22, 8, .. one, .. two, 0x4A, 4, 9, 9, 9, 9]),
-            Tensor("int-typed", 6, [0x22, 8, .. one, .. two]),
+            Tensor("complex", 14, [0x22, .. Varint(many.Length), .. many]),
+            Tensor("two-chunks", 1, [0x22, .. Varint(many.Length), .. many, 0x22, 4, .. three]),
+            Tensor("both", 1, [0x22, .. Varint(many.Length), .. many, 0x4A, 4, 9, 9, 9, 9]),
+            Tensor("int-typed", 6, [0x22, .. Varint(many.Length), .. many]),
         ];
         var graph = new List<byte>();
-        foreach (var t in tensors) graph.AddRange([0x2A, (byte)t.Length, .. t]);
+        foreach (var t in tensors) graph.AddRange([0x2A, .. Varint(t.Length), .. t]);
         byte[] model = [.. g.Model.ToByteArray(), 0x3A, .. Varint(graph.Count), .. graph];
         string path = Path.Combine(dir.Path, "hand.onnx");
         File.WriteAllBytes(path, model);
