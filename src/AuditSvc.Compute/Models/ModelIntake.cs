@@ -143,15 +143,19 @@ public static class ModelIntake
         return (plan, rewritten.ToByteArray(), imageShape);
     }
 
-    // One read of the file: the hash is of exactly the bytes parsed.
-    private static (ModelProto Model, string Sha256) ParseHashed(string modelPath)
+    // One read of the file's payloads: the hash is of exactly the bytes parsed. A first walk over tags and lengths only
+    // finds the packed float weights, which the parser then reads as raw_data (RawWeightTags); the swap sits after the
+    // hash, so the hash stays the file's. With retag off (tests), the file is parsed as it is.
+    internal static (ModelProto Model, string Sha256) ParseHashed(string modelPath, bool retag = true)
     {
         using var file = new FileStream(modelPath, FileMode.Open, FileAccess.Read, FileShare.Read, bufferSize: 1 << 16);
+        long[]? tags = retag ? RawWeightTags.Find(file) : null;
+        file.Position = 0;
         using var sha = SHA256.Create();
         ModelProto model;
         using (var hashing = new CryptoStream(file, sha, CryptoStreamMode.Read, leaveOpen: true))
         {
-            model = OnnxGuard.Parse(modelPath, hashing);
+            model = OnnxGuard.Parse(modelPath, tags is { Length: > 0 } ? new RawWeightTags.Retagged(hashing, tags) : hashing);
             hashing.CopyTo(Stream.Null);
         }
         return (model, Convert.ToHexStringLower(sha.Hash!));
