@@ -111,6 +111,8 @@ public static partial class OrtRunner
         {
             GraphOptimizationLevel = level, IntraOpNumThreads = 1, InterOpNumThreads = 1,
             LogSeverityLevel = OrtLoggingLevel.ORT_LOGGING_LEVEL_FATAL,
+            // One run, then gone: an arena and a memory pattern only keep blocks for runs that never come.
+            EnableCpuMemArena = false, EnableMemoryPattern = false,
         };
         OrtEnvironment.EnsureQuiet();
         // What earlier steps left (parsed weights, another session's serialised copy) goes before a session is built.
