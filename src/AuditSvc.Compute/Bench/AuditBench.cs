@@ -98,12 +98,12 @@ public static class AuditBench
             ct.ThrowIfCancellationRequested();
             var manifest = Manifest(images, files, n, classes);
             var outDir = Path.Combine(work, $"audit-{n}");
-            double loadBefore = LoadAverage();
+            double loadBefore = BenchMachine.LoadAverage();
             log($"audit of {n} images ({Path.GetFileName(o.ModelPath)}, batch {chosen.BatchSize}, {chosen.InferenceThreads} threads), load {loadBefore:0.0}");
             var jit = System.Runtime.JitInfo.GetCompilationTime();
             long jitMethods = System.Runtime.JitInfo.GetCompiledMethodCount();
             var (seconds, phases, scored, findings) = Audit(o.ModelPath, load, manifest, outDir, options, ct);
-            var row = new AuditBenchRow(n, seconds, phases, scored, findings, loadBefore, LoadAverage())
+            var row = new AuditBenchRow(n, seconds, phases, scored, findings, loadBefore, BenchMachine.LoadAverage())
             {
                 JitSeconds = (System.Runtime.JitInfo.GetCompilationTime() - jit).TotalSeconds,
                 JitMethods = System.Runtime.JitInfo.GetCompiledMethodCount() - jitMethods,
@@ -131,7 +131,7 @@ public static class AuditBench
             rows.Add(row);
             if (o.WorkDirectory is null && Directory.Exists(outDir)) Directory.Delete(outDir, recursive: true);
         }
-        return new AuditBenchResult(Path.GetFileName(o.ModelPath), MachineText(), chosen.BatchSize, chosen.InferenceThreads, chosen.DecodeThreads,
+        return new AuditBenchResult(Path.GetFileName(o.ModelPath), BenchMachine.Describe(withOs: false), chosen.BatchSize, chosen.InferenceThreads, chosen.DecodeThreads,
             $"{o.PhotoWidth}x{o.PhotoHeight}", rows);
     }
 
@@ -166,30 +166,5 @@ public static class AuditBench
             lines.Add($"{Path.GetFileName(files[i])},{classes[i % classes.Count]},{(rng.Next(2) == 0 ? "north" : "south")}");
         File.WriteAllLines(path, lines);
         return path;
-    }
-
-    private static string MachineText()
-    {
-        string cpu = "unknown CPU";
-        try
-        {
-            cpu = File.ReadLines("/proc/cpuinfo").FirstOrDefault(l => l.StartsWith("model name", StringComparison.Ordinal))?.Split(':', 2)[1].Trim() ?? cpu;
-        }
-        catch (IOException)
-        {
-        }
-        return $"{cpu}, {Environment.ProcessorCount} cores, {System.Runtime.InteropServices.RuntimeInformation.FrameworkDescription}";
-    }
-
-    internal static double LoadAverage()
-    {
-        try
-        {
-            return double.Parse(File.ReadAllText("/proc/loadavg").Split(' ')[0], CultureInfo.InvariantCulture);
-        }
-        catch (Exception e) when (e is IOException or FormatException or UnauthorizedAccessException)
-        {
-            return double.NaN;
-        }
     }
 }

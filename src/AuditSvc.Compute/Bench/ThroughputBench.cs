@@ -1,5 +1,4 @@
 using System.Diagnostics;
-using System.Runtime.InteropServices;
 using AuditSvc.Compute.Activations;
 using AuditSvc.Compute.Models;
 using AuditSvc.Core.Models;
@@ -100,7 +99,7 @@ public static class ThroughputBench
                 Repeated(o.MinPhaseSeconds, o.Images, () => pass.Run(table, null, ct)));
             rounds.Add(round);
             log($"round {r + 1}: decode {round.Item1.ImagesPerSecond:0.0}, raw {round.Item2.ImagesPerSecond:0.0}, pass {round.Item3.ImagesPerSecond:0.0}, " +
-                $"whole {round.Item4.ImagesPerSecond:0.0} images/s; load {LoadAverage():0.0}");
+                $"whole {round.Item4.ImagesPerSecond:0.0} images/s; load {BenchMachine.LoadAverage():0.0}");
             if (arch is not null)
             {
                 // The script runs in its own process right after the round's whole pass, on the same files.
@@ -122,10 +121,10 @@ public static class ThroughputBench
         var whole = MedianRate(rounds.Select(x => x.Whole));
         double bound = Median(rounds.Select(x => Bound(x.Decode, x.Raw)));
         return new BenchResult(
-            Path.GetFileName(o.ModelPath), MachineName(), Environment.ProcessorCount, o.Images, opt.BatchSize, opt.InferenceThreads, opt.DecodeThreads,
+            Path.GetFileName(o.ModelPath), BenchMachine.Describe(withOs: true), Environment.ProcessorCount, o.Images, opt.BatchSize, opt.InferenceThreads, opt.DecodeThreads,
             model.Plan.Batch == BatchMode.Batched ? "batched" : "concurrent-single", units, $"{o.PhotoWidth}x{o.PhotoHeight}", rawSource,
             rawRate, passRate, whole, decode, bound, ratios, peakN, peakAgain, peakBig, big.Items.Count, wholeBig, resident,
-            model.Plan.ClassCount * sizeof(float) + sizeof(int) + sizeof(bool), LoadAverage(), rounds.Count)
+            model.Plan.ClassCount * sizeof(float) + sizeof(int) + sizeof(bool), BenchMachine.LoadAverage(), rounds.Count)
         {
             TorchImagesPerSecond = torchRuns.Count == 0 ? null : Median(torchRuns.Select(x => x.Whole)),
             TorchRatio = torchRuns.Count == 0 ? null : Median(torchRuns.Select(x => x.Ratio)),
@@ -216,31 +215,6 @@ public static class ThroughputBench
         {
             int count = Math.Min(opt.BatchSize, images - s);
             raw.Run(mem.Slice(s * slot, count * slot), count, static (_, _) => { }, readLayers: false);
-        }
-    }
-
-    private static string MachineName()
-    {
-        string cpu = "unknown CPU";
-        try
-        {
-            cpu = File.ReadLines("/proc/cpuinfo").FirstOrDefault(l => l.StartsWith("model name", StringComparison.Ordinal))?.Split(':', 2)[1].Trim() ?? cpu;
-        }
-        catch (IOException)
-        {
-        }
-        return $"{cpu}, {Environment.ProcessorCount} cores, {RuntimeInformation.OSDescription}, {RuntimeInformation.FrameworkDescription}";
-    }
-
-    private static double LoadAverage()
-    {
-        try
-        {
-            return double.Parse(File.ReadAllText("/proc/loadavg").Split(' ')[0], System.Globalization.CultureInfo.InvariantCulture);
-        }
-        catch (Exception e) when (e is IOException or FormatException or UnauthorizedAccessException)
-        {
-            return double.NaN;
         }
     }
 }
