@@ -53,8 +53,7 @@ public static class ModelIntake
         var (model, sha256) = ParseHashed(modelPath);
         OnnxGuard.RejectExternalData(modelPath, model);
         RawWeights.Pack(model.Graph);
-        // Parsing and packing left the weights' old arrays behind.
-        OrtRunner.ReleaseTransient();
+        // What parsing and packing left behind goes when the probe's session is built (OrtRunner collects first).
         Audits.MemoryTrace.Mark("model parsed");
         var input = OnnxGuard.ImageInputOf(modelPath, model);
         if (input.Batch is > 1)
@@ -85,8 +84,8 @@ public static class ModelIntake
         if (graph.Output.Count == 0) throw new AuditInputException(modelPath, "the graph has no outputs (field 'output')");
         string classOutput = graph.Output[0].Name;
         var shapes = Guarded(modelPath, () => OrtRunner.ProbeShapes(model, input.Name, imageShape));
-        // The probe's serialised copy of the model and its session's memory go before the next step allocates.
-        OrtRunner.ReleaseTransient();
+        // The probe's session is gone; its memory goes before the next session is built (OrtRunner collects first) or,
+        // when there is none, at the end of the intake.
         Audits.MemoryTrace.Mark("shapes probed");
         if (!shapes.TryGetValue(classOutput, out var classShape) || classShape.Length < 2)
             throw new AuditInputException(modelPath, $"the first graph output '{classOutput}' is not a float tensor [N, classes] (field 'output')");
