@@ -13,8 +13,6 @@ public static class MemoryTrace
 {
     private static readonly string? Mode = Environment.GetEnvironmentVariable("AUDITSVC_MEMORY_TRACE");
 
-    private static readonly DateTime Started = System.Diagnostics.Process.GetCurrentProcess().StartTime;
-
     public static bool Enabled => !string.IsNullOrEmpty(Mode) && Mode != "0";
 
     /// <summary>Prints one line for <paramref name="where"/> when tracing is on.</summary>
@@ -34,6 +32,8 @@ public static class MemoryTrace
             GC.WaitForPendingFinalizers();
         }
         var status = ProcStatus();
+        // Read only when a line is made: tracing off costs one flag read, nothing more.
+        using var self = System.Diagnostics.Process.GetCurrentProcess();
         var gc = GC.GetGCMemoryInfo(GCKind.Any);
         var sizes = new long[5];
         var gen = gc.GenerationInfo;
@@ -43,7 +43,7 @@ public static class MemoryTrace
             $"[memory] {where}: resident {Kib(status, "VmRSS")} (high-water {Kib(status, "VmHWM")}; anonymous {Kib(status, "RssAnon")}, files {Kib(status, "RssFile")}) MiB; " +
             $"managed {Mib(GC.GetTotalMemory(false))} (after last collection: heap {Mib(gc.HeapSizeBytes)}, gen0 {G(0)}, gen1 {G(1)}, gen2 {G(2)}, large {G(3)}, pinned {G(4)}, " +
             $"fragmented {Mib(gc.FragmentedBytes)}, committed {Mib(gc.TotalCommittedBytes)}) MiB; allocated so far {Mib(GC.GetTotalAllocatedBytes())} MiB; " +
-            $"at {(DateTime.Now - Started).TotalSeconds:0.00} s, CPU {System.Diagnostics.Process.GetCurrentProcess().TotalProcessorTime.TotalSeconds:0.00} s");
+            $"at {(DateTime.Now - self.StartTime).TotalSeconds:0.00} s, CPU {self.TotalProcessorTime.TotalSeconds:0.00} s");
     }
 
     private static string Mib(long bytes) => (bytes / (1024.0 * 1024)).ToString("0", CultureInfo.InvariantCulture);
