@@ -20,7 +20,9 @@ public readonly record struct PassProgress(int Done, int Total, double ImagesPer
 /// </summary>
 public sealed class ActivationPass : IDisposable
 {
-    private readonly ModelPlan _plan;
+    private ModelPlan _plan;
+    private int _singleRuns;
+    private readonly object _settling = new();
     private readonly Lazy<ModelRunner> _runner;
     private readonly Lazy<ModelRunner> _fullRunner;
     private readonly Preprocessor _pre;
@@ -38,17 +40,19 @@ public sealed class ActivationPass : IDisposable
         var probe = new Preprocessor(plan.Recipe);
         Options = options.Resolve(probe.SlotLength);
         int threads = single ? 1 : Options.InferenceThreads;
+        _singleRuns = Options.InferenceThreads;
         bool inGraph = Options.ReduceInGraph ?? true;
         // Both sessions are made when first run: a merge reads only the layers and options, and runs neither; the
         // interventions read full maps of single units.
-        _fullRunner = new Lazy<ModelRunner>(() => new ModelRunner(plan, Source(), threads, Options.Spinning ?? false));
+        _fullRunner = new Lazy<ModelRunner>(() => SettleBatch(new ModelRunner(plan, Source(), threads, Options.Spinning ?? false)));
         _runner = inGraph
-            ? new Lazy<ModelRunner>(() => new ModelRunner(plan, file =>
+            ? new Lazy<ModelRunner>(() => SettleBatch(new ModelRunner(plan, file =>
             {
+                BeforeSessionBuild?.Invoke();
                 WriteReduced(file);
                 // Written: the runtime builds the session from the file, so the model's bytes can go before it does.
                 if (_releaseOnBuild) ReleaseSource();
-            }, threads, Options.Spinning ?? false, reduced: true))
+            }, threads, Options.Spinning ?? false, reduced: true)))
             : _fullRunner;
         // The recipe has one mean per input channel (the intake checks it against the graph's input).
         _pre = new Preprocessor(plan.Recipe) { Channels = plan.Recipe.Mean.Length };
@@ -64,6 +68,12 @@ public sealed class ActivationPass : IDisposable
     }
 
     public PassOptions Options { get; }
+
+    /// <summary>
+    /// The model's plan as this pass runs it: the intake's, except that a batch the intake left unchecked
+    /// (<see cref="ModelPlan.BatchUnchecked"/>) is settled once the first session is built.
+    /// </summary>
+    public ModelPlan Plan => _plan;
 
     /// <summary>A runner whose layer outputs are the full activation maps (for runs that read single units).</summary>
     public ModelRunner Runner => _fullRunner.Value;
@@ -97,13 +107,17 @@ public sealed class ActivationPass : IDisposable
         var sink = NewCollector(n, item => table.Items[item].RelativePath);
         int b = Options.BatchSize, slot = _pre.SlotLength;
         var clock = Stopwatch.StartNew();
+        // While the session is still being built (PrepareInBackground), images that are kept anyway are decoded from the
+        // last one back on the core the build leaves idle; the decoders below, coming from the first, then only convert them.
+        using var early = _kept is not null && !_runner.IsValueCreated ? new EarlyDecodes(this, table, start, count, ct) : null;
         // Decoders work image by image, ahead into later batches, up to a bound in images (see DecodeAhead).
         using (var ahead = new DecodeAhead(count, b, Options.DecodeThreads, Options.DecodeAheadImages, () => new PassBatch(b, slot, _units),
             (j, batch, i) =>
             {
                 var item = table.Items[start + j];
                 batch.Items[i] = item.Index;
-                Decode(item.Path, batch, i);
+                if (early?.Take(j) is { } done) FromEarly(done, batch, i);
+                else Decode(item.Path, batch, i);
             }, ct))
         {
             int done = 0;
@@ -174,17 +188,118 @@ public sealed class ActivationPass : IDisposable
         {
             dest.Clear();
             batch.Ok[i] = false;
-            batch.Error[i] = $"not decodable at pass time ({e.GetType().Name}: {e.Message.Split('\n')[0]})";
+            batch.Error[i] = NotDecodable(e);
         }
     }
+
+    // An image the early decoder finished: kept (convert it) or failed (its reason), or to decode again here.
+    private void FromEarly(EarlyDecodes.Outcome done, PassBatch batch, int i)
+    {
+        var dest = batch.Input.AsSpan(i * _pre.SlotLength, _pre.SlotLength);
+        if (done.Image is { } image)
+        {
+            _pre.Write(image, dest);
+            batch.Ok[i] = true;
+            batch.Error[i] = null;
+            return;
+        }
+        dest.Clear();
+        batch.Ok[i] = false;
+        batch.Error[i] = done.Error;
+    }
+
+    /// <summary>
+    /// One thread that decodes a run's images from the last one back while the pass's session is being built, into the
+    /// kept images; it stops when the session is built, when it meets an image the forward decoders took, or at the
+    /// first. Each image is claimed once, by it or by a forward decoder; a forward decoder that finds an image claimed
+    /// here waits for it (at most the one being decoded).
+    /// </summary>
+    private sealed class EarlyDecodes : IDisposable
+    {
+        public sealed record Outcome(Image<Rgb24>? Image, string? Error);
+
+        private const int Free = 0, Early = 1, Forward = 2;
+        private readonly int[] _claim;
+        private readonly Outcome?[] _done;
+        private readonly Task _worker;
+        private readonly CancellationTokenSource _stop;
+
+        public EarlyDecodes(ActivationPass pass, ItemTable table, int start, int count, CancellationToken ct)
+        {
+            _claim = new int[count];
+            _done = new Outcome?[count];
+            _stop = CancellationTokenSource.CreateLinkedTokenSource(ct);
+            var token = _stop.Token;
+            pass._earlyDecoded = 0;
+            pass._earlyStopped = false;
+            _worker = Task.Factory.StartNew(() =>
+            {
+                try
+                {
+                    Decode(pass, table, start, count, token);
+                }
+                finally
+                {
+                    pass._earlyStopped = true;
+                }
+            }, CancellationToken.None, TaskCreationOptions.LongRunning, TaskScheduler.Default);
+        }
+
+        private void Decode(ActivationPass pass, ItemTable table, int start, int count, CancellationToken token)
+        {
+            for (int j = count - 1; j >= 0 && !token.IsCancellationRequested && !pass._runner.IsValueCreated; j--)
+            {
+                if (Interlocked.CompareExchange(ref _claim[j], Early, Free) != Free) return;
+                var item = table.Items[start + j];
+                Outcome result;
+                try
+                {
+                    var image = pass._pre.Load(item.Path);
+                    pass._kept![item.Index] = image;
+                    result = new Outcome(image, null);
+                }
+                catch (Exception e) when (e is SixLabors.ImageSharp.ImageFormatException or IOException or NotSupportedException or UnauthorizedAccessException)
+                {
+                    result = new Outcome(null, NotDecodable(e));
+                }
+                catch (Exception)
+                {
+                    // Anything else is met again, and reported, by the forward decoder's own attempt.
+                    result = new Outcome(null, null);
+                }
+                Volatile.Write(ref _done[j], result);
+                Interlocked.Increment(ref pass._earlyDecoded);
+            }
+        }
+
+        /// <summary>Null: the forward decoder decodes item <paramref name="j"/> itself; else what the early decoder made of it.</summary>
+        public Outcome? Take(int j)
+        {
+            if (Interlocked.CompareExchange(ref _claim[j], Forward, Free) == Free) return null;
+            var spin = new SpinWait();
+            Outcome? done;
+            while ((done = Volatile.Read(ref _done[j])) is null) spin.SpinOnce();
+            return done.Image is null && done.Error is null ? null : done;
+        }
+
+        public void Dispose()
+        {
+            _stop.Cancel();
+            try { _worker.Wait(); } catch (AggregateException) { }
+            _stop.Dispose();
+        }
+    }
+
+    private static string NotDecodable(Exception e) => $"not decodable at pass time ({e.GetType().Name}: {e.Message.Split('\n')[0]})";
 
     private void InferAndCollect(PassBatch batch, Memory<float> input, PassCollector sink)
     {
         int slot = _pre.SlotLength;
         var probs = sink.Probabilities;
+        // The runner first: building it settles a batch the intake left unchecked.
         var runner = _runner.Value;
         if (_plan.Batch == BatchMode.ConcurrentSingle)
-            Parallel.For(0, batch.Count, new ParallelOptions { MaxDegreeOfParallelism = Options.InferenceThreads }, i =>
+            Parallel.For(0, batch.Count, new ParallelOptions { MaxDegreeOfParallelism = _singleRuns }, i =>
                 runner.Run(input.Slice(i * slot, slot), 1, (cls, layers) => Reduce(batch, i, 1, cls, layers, probs, parallel: false)));
         else
             runner.Run(input, batch.Count, (cls, layers) => Reduce(batch, 0, batch.Count, cls, layers, probs, Options.InferenceThreads > 1));
@@ -219,6 +334,22 @@ public sealed class ActivationPass : IDisposable
             LayerReduce.Run(_layers[l], layers[l], count, offset, _units, batch.Scores, batch.PeakY, batch.PeakX, parallel);
     }
 
+    // A batch the intake freed unchecked is tested on the first session built, which is the pass's own: cheaper than
+    // the intake's two unoptimised sessions, and a test of the graph that will run. Failing it, the same session runs one
+    // image at a time (at batch 1 it computes what the file's graph does); its threads were sized for batches, so the
+    // single runs go one after another instead of side by side.
+    private ModelRunner SettleBatch(ModelRunner runner)
+    {
+        lock (_settling)
+        {
+            if (!_plan.BatchUnchecked) return runner;
+            bool free = BatchRuns.Agree(runner);
+            _plan = _plan with { BatchUnchecked = false, Batch = free ? BatchMode.Batched : BatchMode.ConcurrentSingle };
+            if (!free) _singleRuns = 1;
+            return runner;
+        }
+    }
+
     public static void Softmax(Span<float> v)
     {
         float max = float.NegativeInfinity;
@@ -247,6 +378,22 @@ public sealed class ActivationPass : IDisposable
         if (releaseModelBytes) ReleaseSource();
     }
 
+    /// <summary>
+    /// <see cref="Prepare"/> on another thread, so that a <see cref="Run"/> started meanwhile decodes its first images
+    /// while the session is built; the run waits for the session before its first batch. The returned task ends when the
+    /// session is built (faulted if it could not be).
+    /// </summary>
+    public Task PrepareInBackground(bool releaseModelBytes = false)
+    {
+        // Set before the thread starts: a run that reaches the session first builds it the same way.
+        _releaseOnBuild = releaseModelBytes;
+        return Task.Run(() =>
+        {
+            Prepare(releaseModelBytes);
+            MemoryTrace.Mark("pass session built");
+        });
+    }
+
     // Its own frame, so that no stack slot of the caller still holds the bytes when they are let go.
     [System.Runtime.CompilerServices.MethodImpl(System.Runtime.CompilerServices.MethodImplOptions.NoInlining)]
     private void WriteReduced(Stream file) => ReducedGraph.Write(Source(), _plan.ReadLayers, file);
@@ -261,6 +408,15 @@ public sealed class ActivationPass : IDisposable
         // A large array: it goes only with a full collection, which the runtime's optimiser is about to need the room of.
         Models.OrtRunner.ReleaseTransient();
     }
+
+    /// <summary>Tests: runs as the pass's session starts to be built (to hold the build back).</summary>
+    internal Action? BeforeSessionBuild { get; set; }
+
+    /// <summary>Tests: images the last run decoded while its session was being built, and whether that decoder has stopped.</summary>
+    internal (int Decoded, bool Stopped) Early => (_earlyDecoded, _earlyStopped);
+
+    private int _earlyDecoded;
+    private volatile bool _earlyStopped;
 
     /// <summary>Which sessions exist: the pass's (in-graph maxima, or full maps when it reads them) and the full maps'.</summary>
     internal (bool Pass, bool FullMaps) SessionsBuilt => (_runner.IsValueCreated, _fullRunner.IsValueCreated);

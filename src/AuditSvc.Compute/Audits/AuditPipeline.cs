@@ -33,18 +33,33 @@ public static class AuditPipeline
     {
         stage?.Invoke(AuditStage.Intake, "reading the model and the image set");
         MemoryTrace.Mark("start");
-        var (plan, table, pass) = Start(request);
+        var (table, pass) = Start(request);
         using (pass)
         {
-            // The pass's session is built from a file; the model's bytes go before the runtime's optimiser needs room.
-            pass.Prepare(releaseModelBytes: true);
-            MemoryTrace.Mark("pass session built");
             stage?.Invoke(AuditStage.Pass, $"{table.Items.Count} images, {pass.Layers.Sum(l => l.Count)} units in {pass.Layers.Count} layers, batch {pass.Options.BatchSize}");
             var clock = Stopwatch.StartNew();
-            // Small sets keep their decoded images for the interventions, which would otherwise decode most of them again.
-            var act = pass.Run(table, progress, ct, keepFittedBytes: ImageRuns.CacheBytes);
+            // The pass's session is built (from a file; the model's bytes go before the runtime's optimiser needs room)
+            // on another thread while the decoders start on the first images: the build runs on one core.
+            var building = pass.PrepareInBackground(releaseModelBytes: true);
+            ActivationResult act;
+            try
+            {
+                // Small sets keep their decoded images for the interventions, which would otherwise decode most of them again.
+                act = pass.Run(table, progress, ct, keepFittedBytes: ImageRuns.CacheBytes);
+            }
+            catch
+            {
+                // The run met the build's failure itself (the session is made once), or failed on its own: either way
+                // the build must be over before the pass goes.
+                try { building.Wait(CancellationToken.None); } catch (AggregateException) { }
+                throw;
+            }
+            // A run over no image never asked for the session: its build's failure, if any, surfaces here.
+            building.GetAwaiter().GetResult();
             double passSeconds = clock.Elapsed.TotalSeconds;
             MemoryTrace.Mark("activation run done");
+            // The pass's plan: a batch the intake left unchecked is settled now.
+            var plan = pass.Plan;
             try
             {
                 return new AuditRun(Finish(pass, table, plan, act, request.Policy, passSeconds, stage, ct), table, plan);
@@ -61,19 +76,42 @@ public static class AuditPipeline
     /// held by the caller once the pass has it: <see cref="ActivationPass.Prepare"/> can then let the bytes go.
     /// </summary>
     [System.Runtime.CompilerServices.MethodImpl(System.Runtime.CompilerServices.MethodImplOptions.NoInlining)]
-    private static (Core.Models.ModelPlan Plan, ItemTable Table, ActivationPass Pass) Start(AuditRequest request)
+    private static (ItemTable Table, ActivationPass Pass) Start(AuditRequest request)
     {
-        var model = ModelIntake.Load(request.ModelPath, request.ModelOptions);
-        MemoryTrace.Mark("model intake done");
         Directory.CreateDirectory(request.WorkDirectory);
-        var table = SetIntake.Read(request.DataPath, model.Plan.Recipe.ClassNames, request.WorkDirectory, request.ImagesRoot);
+        // The set's intake (every file identified and hashed) runs on the other core while the model's runs on this one.
+        // It needs only the class names, which come from --labels or the recipe file beside the model, not from the graph.
+        IReadOnlyList<string>? names = null;
+        var reading = Task.Run(() =>
+        {
+            names = request.ModelOptions.Recipe?.ClassNames ?? RecipeLoader.ReadFile(RecipeLoader.RecipePathFor(request.ModelPath))?.ClassNames;
+            return SetIntake.Read(request.DataPath, names, request.WorkDirectory, request.ImagesRoot);
+        });
+        LoadedModel model;
+        try
+        {
+            // The batch a file fixes at 1 is tested by the pass on its own session, not by two sessions here.
+            model = ModelIntake.Load(request.ModelPath, request.ModelOptions with { BatchCheckOnPass = true });
+        }
+        catch
+        {
+            // The model's problem is reported first, as when the two ran one after the other.
+            try { reading.Wait(CancellationToken.None); } catch (AggregateException) { }
+            throw;
+        }
+        MemoryTrace.Mark("model intake done");
+        var table = reading.GetAwaiter().GetResult();
+        // The names the set was read with are the plan's by construction (the recipe resolves them the same way); should
+        // they ever differ, the set is read again with the plan's.
+        if (!SameNames(names, model.Plan.Recipe.ClassNames))
+            table = SetIntake.Read(request.DataPath, model.Plan.Recipe.ClassNames, request.WorkDirectory, request.ImagesRoot);
         MemoryTrace.Mark($"set intake done ({table.Items.Count} images)");
         CheckLabels(table, model);
         PolicyFile.CheckAttributes(request.Policy, table.Attributes.Select(a => a.Name).ToList(), "policy");
         var passOptions = request.Pass with { SpillDirectory = request.Pass.SpillDirectory ?? Path.Combine(request.WorkDirectory, "scores") };
         // Once per audit, before the pass's session is built: what the set's intake left goes back to the system.
         OrtRunner.ReleaseTransient();
-        return (model.Plan, table, new ActivationPass(model.Plan, model.RewrittenModel, passOptions));
+        return (table, new ActivationPass(model.Plan, model.RewrittenModel, passOptions));
     }
 
     /// <summary>
@@ -161,6 +199,9 @@ public static class AuditPipeline
         MemoryTrace.Mark("verdict");
         return result;
     }
+
+    private static bool SameNames(IReadOnlyList<string>? a, IReadOnlyList<string>? b) =>
+        a is null ? b is null : b is not null && a.SequenceEqual(b, StringComparer.Ordinal);
 
     private static void CheckLabels(ItemTable table, LoadedModel model)
     {

@@ -71,7 +71,7 @@ public sealed class ImageRuns(ActivationPass pass) : IDisposable
         // full-maps session is built only when a unit's score is asked for.
         var runner = unit is null ? pass.ClassRunner : pass.Runner;
         int slot = pass.Preprocessor.SlotLength, k = runner.Plan.ClassCount;
-        int batch = runner.Plan.Batch == Core.Models.BatchMode.ConcurrentSingle ? 1 : Math.Max(1, pass.Options.BatchSize);
+        int batch = pass.Plan.Batch == Core.Models.BatchMode.ConcurrentSingle ? 1 : Math.Max(1, pass.Options.BatchSize);
         var predicted = new int[images.Count];
         var scores = new float[images.Count];
         var input = new float[batch * slot];

@@ -89,16 +89,22 @@ public static class GraphRewriter
                 same = false;
                 return;
             }
-            float scale = 1f;
-            foreach (float v in data) scale = Math.Max(scale, Math.Abs(v));
-            var slice = all.Data.AsSpan(b * data.Length, data.Length);
-            for (int i = 0; i < slice.Length; i++)
-                if (!(Math.Abs(slice[i] - data[i]) <= 1e-4f * scale))
-                {
-                    same = false;
-                    return;
-                }
+            same = Agrees(data, all.Data.AsSpan(b * data.Length, data.Length));
         });
         return same;
+    }
+
+    /// <summary>
+    /// True when <paramref name="inBatch"/> (one image's part of a batched output) matches <paramref name="alone"/> (the same
+    /// image run alone) within 1e-4 relative to the largest magnitude of <paramref name="alone"/> (at least 1); NaN never matches.
+    /// </summary>
+    public static bool Agrees(ReadOnlySpan<float> alone, ReadOnlySpan<float> inBatch)
+    {
+        if (alone.Length != inBatch.Length) return false;
+        float scale = 1f;
+        foreach (float v in alone) scale = Math.Max(scale, Math.Abs(v));
+        for (int i = 0; i < alone.Length; i++)
+            if (!(Math.Abs(inBatch[i] - alone[i]) <= 1e-4f * scale)) return false;
+        return true;
     }
 }

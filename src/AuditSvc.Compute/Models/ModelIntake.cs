@@ -11,7 +11,11 @@ namespace AuditSvc.Compute.Models;
 /// <param name="Layers">Tensor names to read instead of the defaults.</param>
 /// <param name="Recipe">Explicit recipe settings; they win over the recipe file beside the model.</param>
 /// <param name="CheckBatch">When the batch dimension is fixed at 1, test whether it can be freed.</param>
-public sealed record ModelLoadOptions(IReadOnlyList<string>? Layers = null, RecipeOverrides? Recipe = null, bool CheckBatch = true);
+/// <param name="BatchCheckOnPass">With <paramref name="CheckBatch"/>: free a batch fixed at 1 without testing it here and
+/// leave the test to the activation pass, which runs it on its own session before its first batch
+/// (<see cref="ModelPlan.BatchUnchecked"/>). An in-process audit does this: it spares the intake two sessions of its own.</param>
+public sealed record ModelLoadOptions(IReadOnlyList<string>? Layers = null, RecipeOverrides? Recipe = null, bool CheckBatch = true,
+    bool BatchCheckOnPass = false);
 
 /// <summary>A checked model: its plan, and the rewritten ONNX bytes whose outputs are
 /// [class output, <see cref="ModelPlan.ReadLayers"/> in that order].</summary>
@@ -115,10 +119,13 @@ public static class ModelIntake
             throw new AuditInputException(options.Recipe?.ClassNames is null ? recipePath : "--labels",
                 $"field 'class_names' has {names.Count} names, the model's output '{classOutput}' has {classCount} classes");
 
-        var single = GraphRewriter.ExposeLayers(model, input.Name, readOutput, read, symbolicBatch: input.Batch is null);
         var batchMode = BatchMode.Batched;
+        bool batchUnchecked = input.Batch == 1 && options.CheckBatch && options.BatchCheckOnPass;
+        // A fixed batch freed unchecked: the pass tests it on its own session, and at batch 1 this graph computes what
+        // the file's does (only the declared batch differs), so the pass can still fall back to one image per run.
+        var single = GraphRewriter.ExposeLayers(model, input.Name, readOutput, read, symbolicBatch: input.Batch is null || batchUnchecked);
         var rewritten = single;
-        if (input.Batch == 1)
+        if (input.Batch == 1 && !batchUnchecked)
         {
             var batched = GraphRewriter.ExposeLayers(model, input.Name, readOutput, read, symbolicBatch: true);
             bool free = options.CheckBatch
@@ -136,6 +143,7 @@ public static class ModelIntake
             OutputIsProbabilities: probabilities)
         {
             ReadLayers = read,
+            BatchUnchecked = batchUnchecked,
             Notes = notes,
             Skipped = skipped,
         };

@@ -88,6 +88,13 @@ public sealed record ModelPlan(
     BatchMode Batch,
     bool OutputIsProbabilities)
 {
+    /// <summary>
+    /// The file fixes the batch at 1 and the intake freed it without checking (<c>ModelLoadOptions.BatchCheckOnPass</c>):
+    /// the activation pass checks it on its own session before its first run and falls back to
+    /// <see cref="BatchMode.ConcurrentSingle"/> when a batch does not give what its images give one at a time.
+    /// </summary>
+    public bool BatchUnchecked { get; init; }
+
     /// <summary>The layers the audit reads (the defaults unless overridden).</summary>
     public IReadOnlyList<LayerInfo> ReadLayers { get; init; } = [];
 

@@ -159,6 +159,81 @@ public class ActivationPassTests
         }
     }
 
+    [Fact]
+    public async Task Run_WhileItsSessionBuilds_DecodesFromTheBack_AndGivesWhatAPlainRunGives()
+    {
+        var table = RandomSet(30, out var dir);
+        // One broken image where the forward decoders start and one where the early decoder does.
+        File.WriteAllText(Path.Combine(dir, "2.png"), "garbage after intake");
+        File.WriteAllText(Path.Combine(dir, "27.png"), "garbage after intake");
+        var model = ModelIntake.Load(Model);
+        var options = new PassOptions { BatchSize = 4, DecodeThreads = 2, TopN = 7 };
+        long keep = 30L * model.Plan.Recipe.Width * model.Plan.Recipe.Height * 3;
+
+        using var pass = new ActivationPass(model.Plan, model.RewrittenModel, options);
+        // The build waits until the early decoder has stopped: it then met the images the forward decoders took.
+        pass.BeforeSessionBuild = () => Assert.True(SpinWait.SpinUntil(() => pass.Early.Stopped, TimeSpan.FromSeconds(60)));
+        var building = pass.PrepareInBackground();
+        var early = pass.Run(table, null, CancellationToken.None, keepFittedBytes: keep);
+        await building;
+        Assert.InRange(pass.Early.Decoded, 30 - 2 * pass.Options.DecodeAheadImages, 30);
+        Assert.True(pass.Early.Decoded >= 20, $"the early decoder took {pass.Early.Decoded} images");
+
+        using var plain = new ActivationPass(model.Plan, model.RewrittenModel, options);
+        plain.Prepare();
+        var reference = plain.Run(table, null, CancellationToken.None, keepFittedBytes: keep);
+        Assert.Equal(0, plain.Early.Decoded);
+
+        Assert.Equal(reference.Predicted, early.Predicted);
+        Assert.Equal(reference.Scored, early.Scored);
+        Assert.Equal(reference.Problems.Select(p => (p.File, p.Reason)), early.Problems.Select(p => (p.File, p.Reason)));
+        Assert.Equal(["2.png", "27.png"], early.Problems.Select(p => p.File).Order());
+        var a = new float[early.UnitCount * 30];
+        var b = new float[early.UnitCount * 30];
+        early.Scores.ReadUnits(0, early.UnitCount, a);
+        reference.Scores.ReadUnits(0, reference.UnitCount, b);
+        Assert.Equal(b, a);
+        for (int u = 0; u < early.UnitCount; u++)
+            Assert.Equal(reference.Top.Sorted(u).Select(p => (p.Item, p.Y, p.X)), early.Top.Sorted(u).Select(p => (p.Item, p.Y, p.X)));
+        // Kept images are the same whoever decoded them.
+        foreach (var item in table.Items.Where(i => i.Index is not 2 and not 27))
+        {
+            var x = new Rgb24[model.Plan.Recipe.Width * model.Plan.Recipe.Height];
+            var y = new Rgb24[x.Length];
+            pass.Kept(item.Index)!.CopyPixelDataTo(x);
+            plain.Kept(item.Index)!.CopyPixelDataTo(y);
+            Assert.Equal(y, x);
+        }
+    }
+
+    [Theory]
+    [InlineData(false, BatchMode.Batched)]
+    [InlineData(true, BatchMode.ConcurrentSingle)]
+    public void Run_BatchLeftUncheckedByTheIntake_IsSettledOnThePassSession_AndScoresAsTheIntakeChecked(bool fixedReshape, BatchMode settled)
+    {
+        var table = RandomSet(11, out _);
+        using var dir = new Models.TempDir();
+        string path = Models.TestModels.SmallCnn(batch: 1, fixedReshape: fixedReshape).Save(dir.Path, "cnn.onnx");
+        var deferred = ModelIntake.Load(path, new ModelLoadOptions(BatchCheckOnPass: true));
+        Assert.True(deferred.Plan.BatchUnchecked);
+        Assert.Equal(BatchMode.Batched, deferred.Plan.Batch);
+        var options = new PassOptions { BatchSize = 4, TopN = 5 };
+
+        using var pass = new ActivationPass(deferred.Plan, deferred.RewrittenModel, options);
+        Assert.True(pass.Plan.BatchUnchecked);
+        pass.Prepare();
+        Assert.False(pass.Plan.BatchUnchecked);
+        Assert.Equal(settled, pass.Plan.Batch);
+        var act = pass.Run(table, null, CancellationToken.None);
+
+        var reference = RunPass(table, ModelIntake.Load(path), options);
+        Assert.Equal(reference.Pred, act.Predicted);
+        var scores = new float[act.UnitCount * table.Items.Count];
+        act.Scores.ReadUnits(0, act.UnitCount, scores);
+        for (int i = 0; i < scores.Length; i++)
+            Assert.True(Math.Abs(reference.Scores[i] - scores[i]) <= 1e-3f * Math.Max(1, Math.Abs(reference.Scores[i])), $"score {i}: {reference.Scores[i]} vs {scores[i]}");
+    }
+
     // Its own frame: the caller keeps no reference to the model's bytes, only a weak one.
     [System.Runtime.CompilerServices.MethodImpl(System.Runtime.CompilerServices.MethodImplOptions.NoInlining)]
     private static (ActivationPass Pass, WeakReference Bytes) PassOverItsOwnBytes(PassOptions options)
