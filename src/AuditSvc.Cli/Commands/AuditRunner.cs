@@ -21,7 +21,7 @@ internal static class AuditRunner
             var json = Path.Combine(outDir, "audit.json");
             var html = Path.Combine(outDir, "report.html");
             var drawing = System.Diagnostics.Stopwatch.StartNew();
-            var report = HtmlReport.Render(run.Result, ExemplarImagesFor(run));
+            var report = ExemplarImagesFor(run).RenderReport(run.Result);
             // audit.json carries the report's time too (the report shows the phases before it).
             var result = run.Result with { Phases = clock.Times(clock.Seconds(AuditStage.Intake), drawing.Elapsed.TotalSeconds) };
             WriteWhole(outDir, (html, report), (json, AuditJson.Serialize(result) + "\n"));
@@ -65,7 +65,7 @@ internal static class AuditRunner
         }
     }
 
-    private static IExemplarImages ExemplarImagesFor(AuditRun run) =>
+    private static Compute.Reporting.ExemplarImages ExemplarImagesFor(AuditRun run) =>
         new Compute.Reporting.ExemplarImages(item => run.Table.Items[item].Path, run.Plan.Recipe);
 
     public static void PrintSummary(AuditResult r, string json, string html)

@@ -146,7 +146,7 @@ public static class AuditBench
         var run = AuditPipeline.Run(request, null, phases.Wrap(), ct);
         var drawing = Stopwatch.StartNew();
         var exemplars = new Reporting.ExemplarImages(item => run.Table.Items[item].Path, run.Plan.Recipe);
-        File.WriteAllText(Path.Combine(outDir, "report.html"), HtmlReport.Render(run.Result, exemplars));
+        File.WriteAllText(Path.Combine(outDir, "report.html"), exemplars.RenderReport(run.Result));
         var times = phases.Times(phases.Seconds(AuditStage.Intake), drawing.Elapsed.TotalSeconds);
         AuditJson.Write(Path.Combine(outDir, "audit.json"), run.Result with { Phases = times });
         if (Directory.Exists(request.WorkDirectory)) Directory.Delete(request.WorkDirectory, recursive: true);

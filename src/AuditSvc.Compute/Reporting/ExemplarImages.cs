@@ -34,6 +34,40 @@ public sealed class ExemplarImages(Func<int, string> itemPath, InputRecipe recip
     private readonly Preprocessor _fit = new(recipe);
     private readonly ConcurrentDictionary<(int Item, BoxDto Box, bool Whole), string?> _cache = new();
 
+    /// <summary>
+    /// The standalone report with its pictures: a first rendering lists the pictures it shows (as placeholders), they are
+    /// made on every core, and the second rendering takes them from the cache. Each picture decodes its image again, so
+    /// one after another they were most of the report's time.
+    /// </summary>
+    public string RenderReport(AuditResult result)
+    {
+        var wanted = new Wanted();
+        HtmlReport.Render(result, wanted);
+        Parallel.ForEach(wanted.Pictures.Distinct(), p =>
+        {
+            if (p.Whole) Whole(p.Exemplar);
+            else Crop(p.Exemplar);
+        });
+        return HtmlReport.Render(result, this);
+    }
+
+    private sealed class Wanted : IExemplarImages
+    {
+        public ConcurrentQueue<(Exemplar Exemplar, bool Whole)> Pictures { get; } = new();
+
+        public string? Crop(Exemplar e)
+        {
+            Pictures.Enqueue((e, false));
+            return null;
+        }
+
+        public string? Whole(Exemplar e)
+        {
+            Pictures.Enqueue((e, true));
+            return null;
+        }
+    }
+
     public string? Crop(Exemplar e)
     {
         ArgumentNullException.ThrowIfNull(e);

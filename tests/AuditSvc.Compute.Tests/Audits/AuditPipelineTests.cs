@@ -61,6 +61,23 @@ public class AuditPipelineTests
     }
 
     [Fact]
+    public void RenderReport_PicturesMadeOnEveryCore_GiveTheReportMadeOneByOne()
+    {
+        using var dir = new TempDir();
+        // The demo model on a set with a planted cue: findings, so pictures.
+        string model = Path.Combine(AppContext.BaseDirectory, "demo-models", "fruit-cue.onnx");
+        string data = Path.Combine(dir.Path, "set");
+        Activations.ChunkResultTests.WriteSet(data);
+        var run = AuditPipeline.Run(Request(model, data, Path.Combine(dir.Path, "work")) with { Pass = new PassOptions { BatchSize = 16 } });
+        Assert.NotEmpty(run.Result.Findings);
+        AuditSvc.Compute.Reporting.ExemplarImages Pictures() => new(item => run.Table.Items[item].Path, run.Plan.Recipe);
+
+        string oneByOne = AuditSvc.Core.Reporting.HtmlReport.Render(run.Result, Pictures());
+        Assert.Contains("data:image/png;base64,", oneByOne, StringComparison.Ordinal);
+        Assert.Equal(oneByOne, Pictures().RenderReport(run.Result));
+    }
+
+    [Fact]
     public void Run_ModelAndSetBothBad_NamesTheModelFirst()
     {
         using var dir = new TempDir();
