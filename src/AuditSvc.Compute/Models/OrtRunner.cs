@@ -79,17 +79,91 @@ public static partial class OrtRunner
     /// Shapes of all float tensors the graph's nodes produce, from one run on a zero input with every
     /// node output exposed (robust where value_info is missing or stale). Only the shapes leave the runtime.
     /// </summary>
-    public static IReadOnlyDictionary<string, long[]> ProbeShapes(ModelProto model, string inputName, long[] inputShape)
+    public static IReadOnlyDictionary<string, long[]> ProbeShapes(ModelProto model, string inputName, long[] inputShape, bool standIns = true)
     {
         var zeros = new FloatTensor(inputShape, new float[checked((int)inputShape.Aggregate(1L, (a, b) => a * b))]);
         var probe = ProbeModel(model);
-        return WithSession(options => SessionFiles.Build(probe.WriteTo, options), GraphOptimizationLevel.ORT_DISABLE_ALL, session =>
+        Func<InferenceSession, IReadOnlyDictionary<string, long[]>> probeShapes = session =>
         {
             var shapes = new Dictionary<string, long[]>(StringComparer.Ordinal);
             Fetch(session, inputName, zeros, session.OutputNames, (name, r) => shapes[name] = r.GetTensorTypeAndShape().Shape);
             return shapes;
-        });
+        };
+        ProbedWithStandIns = false;
+        var large = standIns ? probe.Graph.Initializer.Where(IsStandIn).ToList() : [];
+        DirectoryInfo? folder = null;
+        try
+        {
+            if (large.Count > 0) folder = Directory.CreateTempSubdirectory("auditsvc-probe-");
+        }
+        catch (Exception e) when (e is IOException or UnauthorizedAccessException)
+        {
+            // No private folder for the stand-ins: the probe reads the real weights.
+        }
+        if (folder is null) return WithSession(options => SessionFiles.Build(probe.WriteTo, options), GraphOptimizationLevel.ORT_DISABLE_ALL, probeShapes);
+        try
+        {
+            var shapes = WithStandIns(probe, large, folder, probeShapes);
+            ProbedWithStandIns = true;
+            return shapes;
+        }
+        catch (OnnxRuntimeException)
+        {
+            // Whatever the runtime refuses with stand-ins it is shown with the real weights, which either run or give
+            // the error that names the model's own problem.
+            return WithSession(options => SessionFiles.Build(ProbeModel(model).WriteTo, options), GraphOptimizationLevel.ORT_DISABLE_ALL, probeShapes);
+        }
     }
+
+    private static IReadOnlyDictionary<string, long[]> WithStandIns(ModelProto probe, List<TensorProto> large, DirectoryInfo folder,
+        Func<InferenceSession, IReadOnlyDictionary<string, long[]>> probeShapes)
+    {
+        // The weights' values shape nothing. The large float ones go to the runtime as views of one zero buffer, so they
+        // are neither written out nor read back and copied (for ResNet-18, 45 MB the runtime would take fresh pages for).
+        // The graph marks them as kept in a file beside it, which the runtime checks exists but never reads: a sparse
+        // file of the largest one's length, taking no disk.
+        var standIns = new List<(string Name, OrtValue Value)>();
+        try
+        {
+            int most = large.Max(Count);
+            var zeroWeights = new float[most];
+            using (var file = new FileStream(Path.Combine(folder.FullName, StandInFile), FileMode.CreateNew)) file.SetLength(most * 4L);
+            foreach (var t in large)
+            {
+                standIns.Add((t.Name, OrtValue.CreateTensorValueFromMemory(OrtMemoryInfo.DefaultInstance, zeroWeights.AsMemory(0, Count(t)), t.Dims.ToArray())));
+                t.RawData = ByteString.Empty;
+                t.DataLocation = TensorProto.Types.DataLocation.External;
+                t.ExternalData.Clear();
+                t.ExternalData.Add(new StringStringEntryProto { Key = "location", Value = StandInFile });
+                t.ExternalData.Add(new StringStringEntryProto { Key = "length", Value = (Count(t) * 4L).ToString(System.Globalization.CultureInfo.InvariantCulture) });
+            }
+            string path = Path.Combine(folder.FullName, "probe.onnx");
+            using (var file = new FileStream(path, FileMode.CreateNew)) probe.WriteTo(file);
+            return WithSession(options =>
+            {
+                foreach (var (name, value) in standIns) options.AddInitializer(name, value);
+                return new InferenceSession(path, options);
+            }, GraphOptimizationLevel.ORT_DISABLE_ALL, probeShapes);
+        }
+        finally
+        {
+            foreach (var (_, value) in standIns) value.Dispose();
+            try { folder.Delete(recursive: true); } catch (IOException) { }
+        }
+    }
+
+    private const string StandInFile = "stand-in-weights.bin";
+
+    /// <summary>Tests: whether the last <see cref="ProbeShapes"/> on this thread ran with stand-ins for the weights.</summary>
+    [ThreadStatic]
+    internal static bool ProbedWithStandIns;
+
+    // Float weights of 64 KiB or more held as raw bytes: matrices and kernels, never a shape or a scale.
+    private static bool IsStandIn(TensorProto t) =>
+        t.DataType == (int)TensorProto.Types.DataType.Float && t.RawData.Length >= 64 * 1024 && t.DataLocation != TensorProto.Types.DataLocation.External
+        && t.Dims.All(d => d > 0) && t.RawData.Length == Count(t) * 4L;
+
+    private static int Count(TensorProto t) => checked((int)t.Dims.Aggregate(1L, (a, b) => a * b));
 
     // A copy of the graph with every node output exposed; it shares the weights' byte strings with the model.
     private static ModelProto ProbeModel(ModelProto model)
