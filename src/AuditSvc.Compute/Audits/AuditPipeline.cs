@@ -109,8 +109,8 @@ public static class AuditPipeline
         CheckLabels(table, model);
         PolicyFile.CheckAttributes(request.Policy, table.Attributes.Select(a => a.Name).ToList(), "policy");
         var passOptions = request.Pass with { SpillDirectory = request.Pass.SpillDirectory ?? Path.Combine(request.WorkDirectory, "scores") };
-        // Once per audit, before the pass's session is built: what the set's intake left goes back to the system.
-        OrtRunner.ReleaseTransient();
+        // What the set's intake left goes back to the system with the model's bytes, once the pass's session file is
+        // written (Run prepares the pass with releaseModelBytes): one full collection there, not another here.
         return (table, new ActivationPass(model.Plan, model.RewrittenModel, passOptions));
     }
 
