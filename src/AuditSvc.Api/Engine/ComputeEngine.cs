@@ -23,8 +23,14 @@ namespace AuditSvc.Api.Engine;
 /// on their items and the merge calls <see cref="AuditPipeline.FinishChunks"/>, so the service's audit.json is the
 /// document the command line writes for the same inputs (byte for byte as <see cref="AuditJson.Write"/> puts it on disk).
 /// </summary>
-public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine
+public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine, IDisposable
 {
+    // Chunk jobs of one model reuse its pass's session (see PassPool).
+    private readonly PassPool _passes = new();
+
+    /// <summary>Passes (each with its ONNX Runtime session) built for chunk jobs so far, and how many wait idle (tests).</summary>
+    internal (int Built, int Idle) ChunkPasses => (_passes.Built, _passes.Idle);
+
     // Loading checks and rewrites the graph; a worker runs many chunks of the same model, so keep the last few.
     private readonly ConcurrentDictionary<string, Lazy<LoadedModel>> _models = new(StringComparer.Ordinal);
 
@@ -51,7 +57,11 @@ public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine
     public Task<byte[]> RunChunkAsync(AuditInputs inputs, int start, int count, CancellationToken ct) => Task.Run(() =>
     {
         var clock = Stopwatch.StartNew();
-        var chunk = AuditPipeline.RunChunk(Model(inputs.ModelPath), inputs.Items, start, count, PassOptionsFor(inputs), ct);
+        var model = Model(inputs.ModelPath);
+        var options = PassOptionsFor(inputs);
+        var chunk = _passes.Use($"{model.Plan.Sha256}|{model.Plan.ModelPath}|{options.InferenceThreads}",
+            () => AuditPipeline.ChunkPass(model, options),
+            pass => AuditPipeline.RunChunk(pass, inputs.Items, start, count, ct));
         using var buffer = new MemoryStream();
         // The chunk's pass time goes first, so the merge can report the pass's time as the sum over chunks.
         buffer.Write(BitConverter.GetBytes(clock.Elapsed.TotalSeconds));
@@ -135,6 +145,8 @@ public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine
         if (_models.Count > 4) _models.Clear();
         return _models.GetOrAdd(path, p => new Lazy<LoadedModel>(() => ComputeModelIntake.Load(p), LazyThreadSafetyMode.PublicationOnly)).Value;
     }
+
+    public void Dispose() => _passes.Dispose();
 
     // Postgres double precision takes infinities, but JSON detail and clients read them badly; keep them out of columns.
     private static double? Finite(double v) => double.IsFinite(v) ? v : null;

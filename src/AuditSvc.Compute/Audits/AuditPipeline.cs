@@ -120,9 +120,27 @@ public static class AuditPipeline
     /// </summary>
     public static ChunkResult RunChunk(LoadedModel model, ItemTable table, int start, int count, PassOptions options, CancellationToken ct = default)
     {
-        using var pass = new ActivationPass(model.Plan, model.RewrittenModel, options with { ScoreMemoryLimitBytes = long.MaxValue, SpillDirectory = null });
+        using var pass = ChunkPass(model, options);
+        return RunChunk(pass, table, start, count, ct);
+    }
+
+    /// <summary>The pass a chunk runs on: its scores stay in memory (a chunk is bounded) and go into the chunk result.
+    /// One pass serves any number of chunks of its model, one after another (the service keeps them between jobs).</summary>
+    public static ActivationPass ChunkPass(LoadedModel model, PassOptions options) =>
+        new(model.Plan, model.RewrittenModel, options with { ScoreMemoryLimitBytes = long.MaxValue, SpillDirectory = null });
+
+    /// <summary>One chunk on a pass made by <see cref="ChunkPass"/>.</summary>
+    public static ChunkResult RunChunk(ActivationPass pass, ItemTable table, int start, int count, CancellationToken ct = default)
+    {
         var act = pass.Run(table, null, ct, start, count);
-        return ChunkResult.From(act, start, count);
+        try
+        {
+            return ChunkResult.From(act, start, count);
+        }
+        finally
+        {
+            (act.Scores as IDisposable)?.Dispose();
+        }
     }
 
     /// <summary>Merges the chunks of an audit, then analysis, interventions and verdict, as <see cref="Run"/> does.</summary>

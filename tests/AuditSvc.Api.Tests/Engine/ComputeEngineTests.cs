@@ -65,6 +65,8 @@ public sealed class ComputeEngineTests
                 Path.Combine(root, "work"));
             var stored = new List<byte[]>();
             for (int start = 0; start < 300; start += 50) stored.Add(await engine.RunChunkAsync(inputs, start, 50, default));
+            // Six chunks of one model, one after another: one pass (one ONNX Runtime session) served them all.
+            Assert.Equal((1, 1), engine.ChunkPasses);
             var local = AuditPipeline.Run(new AuditRequest(model, manifest, new ModelLoadOptions(), new AuditPolicy(), new PassOptions(),
                 Path.Combine(root, "local-work"))).Result;
             var parsed = stored.Select(b => AuditSvc.Api.Engine.ComputeEngine.ReadChunk(new MemoryStream(b))).ToList();
