@@ -57,7 +57,7 @@ public static class AuditPipeline
             // A run over no image never asked for the session: its build's failure, if any, surfaces here.
             building.GetAwaiter().GetResult();
             double passSeconds = clock.Elapsed.TotalSeconds;
-            MemoryTrace.Mark("activation run done");
+            MemoryTrace.Mark($"activation run done ({pass.Early.Decoded} images decoded while its session was built)");
             // The pass's plan: a batch the intake left unchecked is settled now.
             var plan = pass.Plan;
             try
