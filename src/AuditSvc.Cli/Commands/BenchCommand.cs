@@ -48,7 +48,7 @@ internal static class BenchCommand
             if (parse.GetValue(auditSizes) is { } sizes)
             {
                 var audits = new AuditBenchOptions(path, ParseSizes(sizes), parse.GetValue(batch), parse.GetValue(threads), w ?? 500, h ?? 375,
-                    parse.GetValue(torch), parse.GetValue(work));
+                    parse.GetValue(torch), parse.GetValue(work)) { CommandLine = ThisCommandLine() };
                 var report = AuditBench.Run(audits, line => Console.Error.WriteLine(line), ct);
                 Console.Out.Write(ToText(report));
                 if (asJson) Console.Out.WriteLine(ToJson(report));
@@ -104,6 +104,14 @@ internal static class BenchCommand
         return sizes;
     }
 
+    // How this program was started: `dotnet auditsvc.dll` or its own launcher.
+    private static IReadOnlyList<string>? ThisCommandLine()
+    {
+        string? host = Environment.ProcessPath, dll = typeof(BenchCommand).Assembly.Location;
+        if (host is null || dll.Length == 0) return null;
+        return Path.GetFileNameWithoutExtension(host) == "dotnet" ? [host, dll] : [host];
+    }
+
     internal static string ToText(AuditBenchResult r)
     {
         var w = new StringWriter(CultureInfo.InvariantCulture);
@@ -115,8 +123,13 @@ internal static class BenchCommand
             var p = row.Phases;
             w.WriteLine($"N = {row.Images,-7} audit {row.AuditSeconds,7:0.0} s ({row.AuditImagesPerSecond:0.0} images/s; intake {p.Intake ?? 0:0.0}, pass {p.Pass:0.0}, " +
                 $"analysis {p.Analysis:0.0}, interventions {p.Interventions:0.0}, report {p.Report ?? 0:0.0}; {row.Scored} scored, {row.Findings} findings; JIT {row.JitSeconds:0.00} s; load {row.LoadBefore:0.0} to {row.LoadAfter:0.0})");
+            if (row.AuditProcessSeconds is { } cold)
+                w.WriteLine($"             audit  {cold,6:0.0} s as a process of its own (`auditsvc audit`, start to exit)");
             if (row.ScriptLoopSeconds is { } loop)
+            {
                 w.WriteLine($"             script {loop,6:0.0} s ({row.ScriptProcessSeconds:0.0} s as a process)  audit/script {row.VsScriptLoop:0.00} ({row.VsScriptProcess:0.00} against the process)");
+                if (row.ProcessVsScriptProcess is { } pp) w.WriteLine($"             process against process {pp:0.00}");
+            }
             else if (row.ScriptNote is not null) w.WriteLine($"             eager script not run: {row.ScriptNote}");
         }
         return w.ToString();
@@ -134,6 +147,8 @@ internal static class BenchCommand
             ["scored"] = row.Scored, ["findings"] = row.Findings, ["jit_seconds"] = Round(row.JitSeconds), ["jit_methods"] = row.JitMethods,
             ["script_loop_seconds"] = row.ScriptLoopSeconds is { } l ? Round(l) : null, ["script_process_seconds"] = row.ScriptProcessSeconds is { } ps ? Round(ps) : null,
             ["audit_vs_script"] = row.VsScriptLoop is { } v ? Round(v) : null, ["audit_vs_script_process"] = row.VsScriptProcess is { } vp ? Round(vp) : null,
+            ["audit_process_seconds"] = row.AuditProcessSeconds is { } ap ? Round(ap) : null,
+            ["audit_process_vs_script_process"] = row.ProcessVsScriptProcess is { } pvp ? Round(pvp) : null,
             ["load_before"] = Round(row.LoadBefore), ["load_after"] = Round(row.LoadAfter),
         }).ToList(),
     });

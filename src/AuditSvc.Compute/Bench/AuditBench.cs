@@ -19,7 +19,14 @@ public sealed record AuditBenchOptions(
     int PhotoHeight = 375,
     string? TorchScript = null,
     string? WorkDirectory = null,
-    string Python = "/usr/bin/python3");
+    string Python = "/usr/bin/python3")
+{
+    /// <summary>
+    /// How to start the command line (the program and the arguments before `audit`): when given, each size is also
+    /// audited by `auditsvc audit` in a process of its own, timed from start to exit, as the script's process is.
+    /// </summary>
+    public IReadOnlyList<string>? CommandLine { get; init; }
+}
 
 /// <summary>
 /// One set size: the whole audit's seconds (model intake to report.html and audit.json written) and its phases,
@@ -40,6 +47,12 @@ public sealed record AuditBenchRow(int Images, double AuditSeconds, PhaseTimes P
     public double JitSeconds { get; init; }
 
     public long JitMethods { get; init; }
+
+    /// <summary>The same audit by `auditsvc audit` in a new process, start to exit (null when not run).</summary>
+    public double? AuditProcessSeconds { get; init; }
+
+    /// <summary>The script's process against the audit's process: both from start-up to results, cold.</summary>
+    public double? ProcessVsScriptProcess => ScriptProcessSeconds / AuditProcessSeconds;
 
     /// <summary>Whole audit against the script's timed loop (decode, forward with hooks, top-n; no start-up): script seconds / audit seconds.</summary>
     public double? VsScriptLoop => ScriptLoopSeconds / AuditSeconds;
@@ -110,6 +123,11 @@ public static class AuditBench
             };
             log(string.Create(CultureInfo.InvariantCulture, $"audit of {n}: {seconds:0.0} s ({n / seconds:0.0} images/s); intake {phases.Intake ?? 0:0.0}, pass {phases.Pass:0.0}, " +
                 $"analysis {phases.Analysis:0.0}, interventions {phases.Interventions:0.0}, report {phases.Report ?? 0:0.0} s; JIT {row.JitSeconds:0.00} s for {row.JitMethods} methods"));
+            if (o.CommandLine is { Count: > 0 } commandLine)
+            {
+                row = row with { AuditProcessSeconds = AuditProcess(commandLine, o, load, manifest, Path.Combine(work, $"audit-{n}-process"), ct) };
+                log(string.Create(CultureInfo.InvariantCulture, $"audit of {n} as a process: {row.AuditProcessSeconds:0.0} s"));
+            }
             if (o.TorchScript is not null)
             {
                 if (arch is null) row = row with { ScriptNote = "no eager-mode rebuild of this architecture" };
@@ -151,6 +169,33 @@ public static class AuditBench
         AuditJson.Write(Path.Combine(outDir, "audit.json"), run.Result with { Phases = times });
         if (Directory.Exists(request.WorkDirectory)) Directory.Delete(request.WorkDirectory, recursive: true);
         return (clock.Elapsed.TotalSeconds, times, run.Result.Pass.Scored, run.Result.Findings.Count);
+    }
+
+    /// <summary>`auditsvc audit` on the same manifest, batch and threads in a child process: seconds from start to exit.</summary>
+    private static double AuditProcess(IReadOnlyList<string> commandLine, AuditBenchOptions o, ModelLoadOptions load, string manifest, string outDir,
+        CancellationToken ct)
+    {
+        var start = new ProcessStartInfo(commandLine[0]) { RedirectStandardOutput = true, RedirectStandardError = true, UseShellExecute = false };
+        foreach (var a in commandLine.Skip(1)) start.ArgumentList.Add(a);
+        foreach (var a in new[] { "audit", "--model", o.ModelPath, "--data", manifest, "--out", outDir,
+                     "--batch", o.BatchSize.ToString(CultureInfo.InvariantCulture), "--threads", o.Threads.ToString(CultureInfo.InvariantCulture) })
+            start.ArgumentList.Add(a);
+        if (load.Recipe?.ClassNames is { } names)
+        {
+            start.ArgumentList.Add("--labels");
+            start.ArgumentList.Add(string.Join(",", names));
+        }
+        var clock = Stopwatch.StartNew();
+        using var process = Process.Start(start) ?? throw new InvalidOperationException($"could not start {commandLine[0]}");
+        var stdout = process.StandardOutput.ReadToEndAsync(ct);
+        var stderr = process.StandardError.ReadToEndAsync(ct);
+        process.WaitForExit();
+        double seconds = clock.Elapsed.TotalSeconds;
+        // 0 pass, 1 block: both are whole audits; anything else is the bench's problem to show.
+        if (process.ExitCode is not (0 or 1))
+            throw new InvalidOperationException($"auditsvc audit exited {process.ExitCode}: {stderr.Result.Trim()} {stdout.Result.Trim()}");
+        if (Directory.Exists(outDir)) Directory.Delete(outDir, recursive: true);
+        return seconds;
     }
 
     /// <summary>

@@ -55,6 +55,8 @@ public class BenchCommandTests
             Assert.True(a.GetProperty("audit_seconds").GetDouble() > 0);
             Assert.True(a.GetProperty("pass_seconds").GetDouble() > 0);
             Assert.Equal(a.GetProperty("images").GetInt32(), a.GetProperty("scored").GetInt32());
+            // The same audit again by `auditsvc audit` in a process of its own, timed start to exit.
+            Assert.True(a.GetProperty("audit_process_seconds").GetDouble() > 0);
             // The script does not exist here: the audit is still measured, and the row says the script did not run.
             Assert.Equal(JsonValueKind.Null, a.GetProperty("audit_vs_script").ValueKind);
         }
