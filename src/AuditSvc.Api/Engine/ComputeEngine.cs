@@ -112,8 +112,8 @@ public sealed class ComputeEngine(ArtifactStore artifacts) : IAuditEngine, IDisp
     public Task<string> RenderReportAsync(AuditInputs inputs, string auditJson, CancellationToken ct) => Task.Run(() =>
     {
         var result = AuditJson.Deserialize(auditJson);
-        var images = new ExemplarImages(item => inputs.Items.Items[item].Path, Model(inputs.ModelPath).Plan.Recipe);
-        return HtmlReport.Render(result, images);
+        // The pictures are made on every core before the report is rendered, as the command line's report is.
+        return new ExemplarImages(item => inputs.Items.Items[item].Path, Model(inputs.ModelPath).Plan.Recipe).RenderReport(result);
     }, ct);
 
     public Task<byte[]?> RenderExemplarAsync(AuditInputs inputs, int item, BoxDto box, bool whole, CancellationToken ct) => Task.Run(() =>
