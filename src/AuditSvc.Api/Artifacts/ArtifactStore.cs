@@ -27,6 +27,14 @@ public sealed class ArtifactStore(IOptions<ServiceOptions> options, ScratchSpace
 {
     public string Root { get; } = Path.GetFullPath(options.Value.DataRoot);
 
+    /// <summary>Where under the root each kind of stored entry lives; <see cref="StoredOrphans"/> reads the same layout.</summary>
+    internal static readonly string BlobFolder = Path.Combine("blobs", "sha256");
+
+    internal const string SetFolder = "sets", ModelFolder = "models";
+
+    /// <summary>Hex digits of the model's hash that begin its folder's name (&lt;16 hex&gt;-&lt;recipe&gt;).</summary>
+    internal const int ModelHashDigits = 16;
+
     public async Task<StoredArtifact> SaveAsync(Stream content, string extension, long maxBytes, string field, CancellationToken ct)
     {
         var temp = scratch.NewPath();
@@ -52,7 +60,7 @@ public sealed class ArtifactStore(IOptions<ServiceOptions> options, ScratchSpace
             }
             if (length == 0) throw new AuditInputException(field, "upload is empty");
             hash = Convert.ToHexStringLower(sha.GetHashAndReset());
-            var relative = Path.Combine("blobs", "sha256", hash[..2], hash + extension);
+            var relative = Path.Combine(BlobFolder, hash[..2], hash + extension);
             var full = Path.Combine(Root, relative);
             Directory.CreateDirectory(Path.GetDirectoryName(full)!);
             hold = await locks.HoldAsync(hash, ct);
@@ -85,7 +93,7 @@ public sealed class ArtifactStore(IOptions<ServiceOptions> options, ScratchSpace
     /// </summary>
     public (string Relative, bool Created) Unpack(StoredArtifact zip, string field, ZipLimits limits, CancellationToken ct)
     {
-        var relative = Path.Combine("sets", zip.ContentHash.Replace("sha256:", "", StringComparison.Ordinal));
+        var relative = Path.Combine(SetFolder, zip.ContentHash.Replace("sha256:", "", StringComparison.Ordinal));
         var target = Path.Combine(Root, relative);
         if (Directory.Exists(target)) return (relative, false);
         var temp = scratch.NewPath();
@@ -121,7 +129,7 @@ public sealed class ArtifactStore(IOptions<ServiceOptions> options, ScratchSpace
         var modelHash = model.ContentHash.Replace("sha256:", "", StringComparison.Ordinal);
         var recipeHash = recipeJson is null ? "none"
             : Convert.ToHexStringLower(SHA256.HashData(System.Text.Encoding.UTF8.GetBytes(recipeJson)))[..16];
-        var relative = Path.Combine("models", $"{modelHash[..16]}-{recipeHash}", "model.onnx");
+        var relative = Path.Combine(ModelFolder, $"{modelHash[..ModelHashDigits]}-{recipeHash}", "model.onnx");
         var full = Path.Combine(Root, relative);
         if (File.Exists(full)) return (relative, false);
         var temp = scratch.NewPath();

@@ -51,7 +51,7 @@ public sealed class StoredOrphans(ArtifactStore artifacts, ContentLocks locks)
     // each with the hash (or its first 16 digits, enough for the lock's key) and its '/'-separated path under the root.
     private IEnumerable<(string Path, bool IsFolder, string HashPrefix, string Relative)> Candidates()
     {
-        var blobs = Path.Combine(artifacts.Root, "blobs", "sha256");
+        var blobs = Path.Combine(artifacts.Root, ArtifactStore.BlobFolder);
         if (Directory.Exists(blobs))
             foreach (var dir in Directory.EnumerateDirectories(blobs))
                 foreach (var file in Directory.EnumerateFiles(dir))
@@ -59,21 +59,23 @@ public sealed class StoredOrphans(ArtifactStore artifacts, ContentLocks locks)
                     var name = Path.GetFileName(file);
                     int dot = name.IndexOf('.', StringComparison.Ordinal);
                     var hash = dot < 0 ? name : name[..dot];
-                    if (IsHex(hash, 64)) yield return (file, false, hash, $"blobs/sha256/{Path.GetFileName(dir)}/{name}");
+                    if (IsHex(hash, 64)) yield return (file, false, hash, $"{ArtifactStore.BlobFolder}/{Path.GetFileName(dir)}/{name}");
                 }
-        var sets = Path.Combine(artifacts.Root, "sets");
+        var sets = Path.Combine(artifacts.Root, ArtifactStore.SetFolder);
         if (Directory.Exists(sets))
             foreach (var dir in Directory.EnumerateDirectories(sets))
             {
                 var name = Path.GetFileName(dir);
-                if (IsHex(name, 64)) yield return (dir, true, name, $"sets/{name}");
+                if (IsHex(name, 64)) yield return (dir, true, name, $"{ArtifactStore.SetFolder}/{name}");
             }
-        var models = Path.Combine(artifacts.Root, "models");
+        var models = Path.Combine(artifacts.Root, ArtifactStore.ModelFolder);
         if (Directory.Exists(models))
             foreach (var dir in Directory.EnumerateDirectories(models))
             {
                 var name = Path.GetFileName(dir);
-                if (name.Length > 17 && name[16] == '-' && IsHex(name[..16], 16)) yield return (dir, true, name[..16], $"models/{name}");
+                const int digits = ArtifactStore.ModelHashDigits;
+                if (name.Length > digits + 1 && name[digits] == '-' && IsHex(name[..digits], digits))
+                    yield return (dir, true, name[..digits], $"{ArtifactStore.ModelFolder}/{name}");
             }
     }
 

@@ -116,7 +116,7 @@ public sealed class ActivationPass : IDisposable
             {
                 var item = table.Items[start + j];
                 batch.Items[i] = item.Index;
-                if (early?.Take(j) is { } done) FromEarly(done, batch, i);
+                if (early?.Take(j) is { } done) Fill(batch, i, done.Image, done.Error);
                 else Decode(item.Path, batch, i);
             }, ct))
         {
@@ -164,39 +164,40 @@ public sealed class ActivationPass : IDisposable
 
     private void Decode(string path, PassBatch batch, int i)
     {
-        var dest = batch.Input.AsSpan(i * _pre.SlotLength, _pre.SlotLength);
+        var (image, error) = TryLoad(path);
         try
         {
-            var image = _pre.Load(path);
-            try
+            Fill(batch, i, image, error);
+            if (image is not null && _kept is { } kept)
             {
-                _pre.Write(image, dest);
-                if (_kept is { } kept)
-                {
-                    kept[batch.Items[i]] = image;
-                    image = null;
-                }
+                kept[batch.Items[i]] = image;
+                image = null;
             }
-            finally
-            {
-                image?.Dispose();
-            }
-            batch.Ok[i] = true;
-            batch.Error[i] = null;
         }
-        catch (Exception e) when (e is SixLabors.ImageSharp.ImageFormatException or IOException or NotSupportedException or UnauthorizedAccessException)
+        finally
         {
-            dest.Clear();
-            batch.Ok[i] = false;
-            batch.Error[i] = NotDecodable(e);
+            image?.Dispose();
         }
     }
 
-    // An image the early decoder finished: kept (convert it) or failed (its reason), or to decode again here.
-    private void FromEarly(EarlyDecodes.Outcome done, PassBatch batch, int i)
+    // The image fitted to the input, or why it could not be decoded.
+    private (Image<Rgb24>? Image, string? Error) TryLoad(string path)
+    {
+        try
+        {
+            return (_pre.Load(path), null);
+        }
+        catch (Exception e) when (e is SixLabors.ImageSharp.ImageFormatException or IOException or NotSupportedException or UnauthorizedAccessException)
+        {
+            return (null, $"not decodable at pass time ({e.GetType().Name}: {e.Message.Split('\n')[0]})");
+        }
+    }
+
+    // Slot i of the batch from a fitted image, or emptied and flagged with the reason the image failed.
+    private void Fill(PassBatch batch, int i, Image<Rgb24>? image, string? error)
     {
         var dest = batch.Input.AsSpan(i * _pre.SlotLength, _pre.SlotLength);
-        if (done.Image is { } image)
+        if (image is not null)
         {
             _pre.Write(image, dest);
             batch.Ok[i] = true;
@@ -205,7 +206,7 @@ public sealed class ActivationPass : IDisposable
         }
         dest.Clear();
         batch.Ok[i] = false;
-        batch.Error[i] = done.Error;
+        batch.Error[i] = error;
     }
 
     /// <summary>
@@ -254,13 +255,9 @@ public sealed class ActivationPass : IDisposable
                 Outcome result;
                 try
                 {
-                    var image = pass._pre.Load(item.Path);
-                    pass._kept![item.Index] = image;
-                    result = new Outcome(image, null);
-                }
-                catch (Exception e) when (e is SixLabors.ImageSharp.ImageFormatException or IOException or NotSupportedException or UnauthorizedAccessException)
-                {
-                    result = new Outcome(null, NotDecodable(e));
+                    var (image, error) = pass.TryLoad(item.Path);
+                    if (image is not null) pass._kept![item.Index] = image;
+                    result = new Outcome(image, error);
                 }
                 catch (Exception)
                 {
@@ -289,8 +286,6 @@ public sealed class ActivationPass : IDisposable
             _stop.Dispose();
         }
     }
-
-    private static string NotDecodable(Exception e) => $"not decodable at pass time ({e.GetType().Name}: {e.Message.Split('\n')[0]})";
 
     private void InferAndCollect(PassBatch batch, Memory<float> input, PassCollector sink)
     {

@@ -29,6 +29,9 @@ public static partial class OrtEnvironment
     /// (up to 32 MiB), after which the runtime's weight-sized buffers come from the heap and stay resident when freed:
     /// building one session of ResNet-18 then held about 65 MB more at its peak. A fixed threshold maps each large block
     /// on its own and gives it back on free. The pass's own buffers come from ONNX Runtime's arena, allocated once.
+    /// The price is time: every large block then arrives as fresh pages, and an optimised ResNet-18 session takes 2.4–2.9 s
+    /// to build instead of 1.0 s (the audit peaked 90–180 MB higher with the threshold at 32 MiB and was no shorter, since
+    /// the build overlaps decoding; docs/performance.md). Measure both before moving it.
     /// </summary>
     private static void FixNativeMmapThreshold()
     {

@@ -82,46 +82,39 @@ public static partial class OrtRunner
     public static IReadOnlyDictionary<string, long[]> ProbeShapes(ModelProto model, string inputName, long[] inputShape, bool standIns = true)
     {
         var zeros = new FloatTensor(inputShape, new float[checked((int)inputShape.Aggregate(1L, (a, b) => a * b))]);
-        var probe = ProbeModel(model);
-        Func<InferenceSession, IReadOnlyDictionary<string, long[]>> probeShapes = session =>
+        Func<InferenceSession, IReadOnlyDictionary<string, long[]>> read = session =>
         {
             var shapes = new Dictionary<string, long[]>(StringComparer.Ordinal);
             Fetch(session, inputName, zeros, session.OutputNames, (name, r) => shapes[name] = r.GetTensorTypeAndShape().Shape);
             return shapes;
         };
-        ProbedWithStandIns = false;
-        var large = standIns ? probe.Graph.Initializer.Where(IsStandIn).ToList() : [];
-        DirectoryInfo? folder = null;
+        var found = standIns ? WithStandIns(ProbeModel(model), read) : null;
+        ProbedWithStandIns = found is not null;
+        // No large weight, no private folder for the stand-ins, or a runtime that refused them: the real weights either
+        // run or give the error that names the model's own problem.
+        return found ?? WithSession(options => SessionFiles.Build(ProbeModel(model).WriteTo, options), GraphOptimizationLevel.ORT_DISABLE_ALL, read);
+    }
+
+    /// <summary>
+    /// The probe with zero stand-ins for its large float weights, or null when it has none, no private folder can be
+    /// made for them, or the runtime refuses them. The weights' values shape nothing: the stand-ins go to the runtime as
+    /// views of one zero buffer, so they are neither written out nor read back and copied (for ResNet-18, 45 MB the
+    /// runtime would take fresh pages for). The graph marks them as kept in a file beside it, which the runtime checks
+    /// exists but never reads: a sparse file of the largest one's length, taking no disk.
+    /// </summary>
+    private static IReadOnlyDictionary<string, long[]>? WithStandIns(ModelProto probe, Func<InferenceSession, IReadOnlyDictionary<string, long[]>> read)
+    {
+        var large = probe.Graph.Initializer.Where(IsStandIn).ToList();
+        if (large.Count == 0) return null;
+        DirectoryInfo folder;
         try
         {
-            if (large.Count > 0) folder = Directory.CreateTempSubdirectory("auditsvc-probe-");
+            folder = Directory.CreateTempSubdirectory("auditsvc-probe-");
         }
         catch (Exception e) when (e is IOException or UnauthorizedAccessException)
         {
-            // No private folder for the stand-ins: the probe reads the real weights.
+            return null;
         }
-        if (folder is null) return WithSession(options => SessionFiles.Build(probe.WriteTo, options), GraphOptimizationLevel.ORT_DISABLE_ALL, probeShapes);
-        try
-        {
-            var shapes = WithStandIns(probe, large, folder, probeShapes);
-            ProbedWithStandIns = true;
-            return shapes;
-        }
-        catch (OnnxRuntimeException)
-        {
-            // Whatever the runtime refuses with stand-ins it is shown with the real weights, which either run or give
-            // the error that names the model's own problem.
-            return WithSession(options => SessionFiles.Build(ProbeModel(model).WriteTo, options), GraphOptimizationLevel.ORT_DISABLE_ALL, probeShapes);
-        }
-    }
-
-    private static IReadOnlyDictionary<string, long[]> WithStandIns(ModelProto probe, List<TensorProto> large, DirectoryInfo folder,
-        Func<InferenceSession, IReadOnlyDictionary<string, long[]>> probeShapes)
-    {
-        // The weights' values shape nothing. The large float ones go to the runtime as views of one zero buffer, so they
-        // are neither written out nor read back and copied (for ResNet-18, 45 MB the runtime would take fresh pages for).
-        // The graph marks them as kept in a file beside it, which the runtime checks exists but never reads: a sparse
-        // file of the largest one's length, taking no disk.
         var standIns = new List<(string Name, OrtValue Value)>();
         try
         {
@@ -137,13 +130,16 @@ public static partial class OrtRunner
                 t.ExternalData.Add(new StringStringEntryProto { Key = "location", Value = StandInFile });
                 t.ExternalData.Add(new StringStringEntryProto { Key = "length", Value = (Count(t) * 4L).ToString(System.Globalization.CultureInfo.InvariantCulture) });
             }
-            string path = Path.Combine(folder.FullName, "probe.onnx");
-            using (var file = new FileStream(path, FileMode.CreateNew)) probe.WriteTo(file);
+            // The graph's file goes beside the stand-ins' file, which its external data names relative to it.
             return WithSession(options =>
             {
                 foreach (var (name, value) in standIns) options.AddInitializer(name, value);
-                return new InferenceSession(path, options);
-            }, GraphOptimizationLevel.ORT_DISABLE_ALL, probeShapes);
+                return SessionFiles.Build(probe.WriteTo, options, folder.FullName);
+            }, GraphOptimizationLevel.ORT_DISABLE_ALL, read);
+        }
+        catch (OnnxRuntimeException)
+        {
+            return null;
         }
         finally
         {
